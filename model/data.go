@@ -1,0 +1,456 @@
+package model
+
+import (
+	"bytes"
+	"cmp"
+	"crypto/sha256"
+	"encoding/csv"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"slices"
+	"strconv"
+	"strings"
+)
+
+// Outcome is an outcome resolved against the data.
+type Outcome struct {
+	Name string
+	Type OutcomeType
+	// K is the number of categories (0 for continuous outcomes).
+	K int
+	// Codes names the categories in order, as they appear in the data.
+	Codes []string
+}
+
+// Panel is the data arranged on the occasion grid. Person i occupies grid
+// positions 0..Len[i]-1 (the grid is the sorted union of occasion values, so
+// a skipped wave is a missing occasion, not a shorter lag). Positions after a
+// person's last observed value are dropped: they carry no information.
+// Cell (i, t, j) is Y[Offset[i]+t*J+j]: a category 0..K-1, a continuous
+// value, or NaN for missing.
+type Panel struct {
+	File      string
+	SHA256    string
+	Rows      int
+	Outcomes  []Outcome
+	Persons   []string
+	Occasions []int
+	Len       []int
+	Offset    []int
+	Y         []float64
+	Notes     []string
+}
+
+// J returns the number of outcomes.
+func (p *Panel) J() int { return len(p.Outcomes) }
+
+// T returns the number of grid occasions.
+func (p *Panel) T() int { return len(p.Occasions) }
+
+// Cells returns the number of person-occasion-outcome cells.
+func (p *Panel) Cells() int { return len(p.Y) }
+
+// LoadPanel reads the CSV named by sp.Data.File.
+func LoadPanel(sp *Spec) (*Panel, error) {
+	raw, err := os.ReadFile(sp.Data.File)
+	if err != nil {
+		if errors.Is(err, os.ErrNotExist) {
+			return nil, Inputf(sp.Path, 0, "data.file: %s does not exist", sp.Data.File)
+		}
+		return nil, Inputf(sp.Data.File, 0, "cannot read data file: %v", err)
+	}
+	return ParsePanel(sp, sp.Data.File, raw)
+}
+
+type cellRow struct {
+	person string
+	occ    int
+	vals   []string
+	line   int
+}
+
+// ParsePanel parses long-format CSV content raw (named file in messages).
+func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
+	sum := sha256.Sum256(raw)
+	raw = bytes.TrimPrefix(raw, []byte("\xef\xbb\xbf"))
+	r := csv.NewReader(bytes.NewReader(raw))
+	r.FieldsPerRecord = -1
+	header, err := r.Read()
+	if err == io.EOF {
+		return nil, Inputf(file, 0, "data file is empty; expected a header row naming the columns and at least one data row")
+	}
+	if err != nil {
+		return nil, Inputf(file, 1, "cannot read the header row: %v", csvMsg(err))
+	}
+	col := map[string]int{}
+	for i, h := range header {
+		h = strings.TrimSpace(h)
+		if _, dup := col[h]; dup {
+			return nil, Inputf(file, 1, "column %q appears twice in the header", h)
+		}
+		col[h] = i
+	}
+	p := &problems{}
+	need := []string{sp.Data.Person, sp.Data.Occasion}
+	for _, o := range sp.Outcomes {
+		need = append(need, o.Name)
+	}
+	idx := make([]int, len(need))
+	for k, name := range need {
+		i, ok := col[name]
+		if !ok {
+			p.addf(file, 1, "missing column %q named in %s%s; the header has: %s", name, sp.Path, suggest(name, header), strings.Join(header, ", "))
+		}
+		idx[k] = i
+	}
+	if err := p.err(); err != nil {
+		return nil, err
+	}
+	missing := map[string]bool{}
+	for _, m := range sp.Data.Missing {
+		missing[m] = true
+	}
+	var rows []cellRow
+	for {
+		rec, err := r.Read()
+		if err == io.EOF {
+			break
+		}
+		line, _ := r.FieldPos(0)
+		if err != nil {
+			p.addf(file, line, "%v", csvMsg(err))
+			if len(p.errs) >= maxReported {
+				break
+			}
+			continue
+		}
+		if len(rec) == 1 && strings.TrimSpace(rec[0]) == "" {
+			continue // blank line
+		}
+		if len(rec) != len(header) {
+			p.addf(file, line, "expected %d fields as in the header, got %d", len(header), len(rec))
+			continue
+		}
+		c := cellRow{line: line, person: strings.TrimSpace(rec[idx[0]])}
+		if c.person == "" || missing[c.person] {
+			p.addf(file, line, "column %q: person is missing", sp.Data.Person)
+			continue
+		}
+		occText := strings.TrimSpace(rec[idx[1]])
+		occ, ok := parseOccasion(occText)
+		if !ok {
+			p.addf(file, line, "column %q: occasion %q is not a whole number (occasions must be integers that order the waves or days)", sp.Data.Occasion, occText)
+			continue
+		}
+		c.occ = occ
+		for k := range sp.Outcomes {
+			v := strings.TrimSpace(rec[idx[2+k]])
+			if missing[v] || missing[rec[idx[2+k]]] {
+				v = "\x00"
+			}
+			c.vals = append(c.vals, v)
+		}
+		rows = append(rows, c)
+	}
+	if err := p.err(); err != nil {
+		return nil, err
+	}
+	if len(rows) == 0 {
+		return nil, Inputf(file, 0, "data file has a header but no data rows")
+	}
+	pan := &Panel{File: file, SHA256: hex.EncodeToString(sum[:]), Rows: len(rows)}
+	pan.Outcomes = make([]Outcome, len(sp.Outcomes))
+	for k, o := range sp.Outcomes {
+		out, err := resolveOutcome(sp, file, o, rows, k)
+		if err != nil {
+			p.add(err)
+			continue
+		}
+		pan.Outcomes[k] = out
+	}
+	if err := p.err(); err != nil {
+		return nil, err
+	}
+	if err := pan.arrange(sp, file, rows); err != nil {
+		return nil, err
+	}
+	return pan, nil
+}
+
+func csvMsg(err error) string {
+	var pe *csv.ParseError
+	if errors.As(err, &pe) {
+		return pe.Err.Error()
+	}
+	return err.Error()
+}
+
+func parseOccasion(s string) (int, bool) {
+	if v, err := strconv.Atoi(s); err == nil {
+		return v, true
+	}
+	f, err := strconv.ParseFloat(s, 64)
+	if err != nil || f != math.Trunc(f) || math.Abs(f) > 1e9 {
+		return 0, false
+	}
+	return int(f), true
+}
+
+// resolveOutcome fixes the category coding of outcome k and checks values.
+func resolveOutcome(sp *Spec, file string, o OutcomeSpec, rows []cellRow, k int) (Outcome, error) {
+	out := Outcome{Name: o.Name, Type: o.Type}
+	p := &problems{}
+	switch {
+	case o.Type == Continuous:
+		for _, r := range rows {
+			v := r.vals[k]
+			if v == "\x00" {
+				continue
+			}
+			f, err := strconv.ParseFloat(v, 64)
+			if err != nil || math.IsNaN(f) || math.IsInf(f, 0) {
+				p.addf(file, r.line, "outcome %q: %q is not a finite number (continuous outcome; missing cells may be %s)", o.Name, v, quoteList(sp.Data.Missing))
+			}
+		}
+		return out, p.err()
+	case len(o.Labels) > 0:
+		out.K, out.Codes = len(o.Labels), o.Labels
+		for _, r := range rows {
+			if v := r.vals[k]; v != "\x00" && !slices.Contains(o.Labels, v) {
+				p.addf(file, r.line, "outcome %q: %q is not one of the declared labels %s", o.Name, v, quoteList(o.Labels))
+			}
+		}
+		return out, p.err()
+	}
+	// Integer codes.
+	lo, hi := math.MaxInt, math.MinInt
+	distinct := map[string]bool{}
+	for _, r := range rows {
+		v := r.vals[k]
+		if v == "\x00" {
+			continue
+		}
+		distinct[v] = true
+		c, ok := parseOccasion(v)
+		if !ok {
+			hint := ""
+			if o.Type == Binary {
+				hint = fmt.Sprintf("; for text answers declare labels, e.g. labels: [no, yes] (lower category first)")
+			}
+			p.addf(file, r.line, "outcome %q: %q is not a whole-number category code%s", o.Name, v, hint)
+			continue
+		}
+		lo, hi = min(lo, c), max(hi, c)
+	}
+	if err := p.err(); err != nil {
+		return out, err
+	}
+	if o.Type == Binary && len(distinct) > 2 {
+		vals := make([]string, 0, len(distinct))
+		for v := range distinct {
+			vals = append(vals, v)
+		}
+		slices.Sort(vals)
+		return out, Inputf(file, 0, "outcome %q is binary but has %d distinct values (%s); a binary outcome has exactly two", o.Name, len(vals), strings.Join(vals, ", "))
+	}
+	if lo == math.MaxInt {
+		return out, Inputf(file, 0, "outcome %q has no observed values", o.Name)
+	}
+	lowest := lo
+	if o.Type == Binary && o.Lowest == nil && lo >= 0 && hi <= 1 {
+		lowest = 0
+	}
+	if o.Lowest != nil {
+		lowest = *o.Lowest
+	}
+	K := o.Categories
+	if K == 0 {
+		K = hi - lowest + 1
+		if o.Type == Binary {
+			K = 2
+		}
+		if o.Type == Ordinal && K < 3 {
+			return out, Inputf(file, 0, "outcome %q: only categories %d..%d occur, fewer than the 3 an ordinal outcome needs; declare categories: K or use type: binary", o.Name, lowest, hi)
+		}
+		if K > 11 {
+			return out, Inputf(file, 0, "outcome %q: codes run from %d to %d, more than 11 categories; declare lowest and categories, or treat it as continuous", o.Name, lowest, hi)
+		}
+	}
+	out.K = K
+	for c := 0; c < K; c++ {
+		out.Codes = append(out.Codes, strconv.Itoa(lowest+c))
+	}
+	for _, r := range rows {
+		v := r.vals[k]
+		if v == "\x00" {
+			continue
+		}
+		c, _ := parseOccasion(v)
+		if c < lowest || c >= lowest+K {
+			p.addf(file, r.line, "outcome %q: category %d outside %d..%d (declared categories: %d%s)", o.Name, c, lowest, lowest+K-1, K, lowestNote(o))
+		}
+	}
+	return out, p.err()
+}
+
+func lowestNote(o OutcomeSpec) string {
+	if o.Lowest != nil {
+		return fmt.Sprintf(", lowest: %d", *o.Lowest)
+	}
+	return ", lowest taken from the data; set lowest: to fix it"
+}
+
+func quoteList(xs []string) string {
+	q := make([]string, len(xs))
+	for i, x := range xs {
+		q[i] = strconv.Quote(x)
+	}
+	return "[" + strings.Join(q, ", ") + "]"
+}
+
+// arrange places the rows on the occasion grid, person by person.
+func (pan *Panel) arrange(sp *Spec, file string, rows []cellRow) error {
+	J := len(sp.Outcomes)
+	occSet := map[int]bool{}
+	byPerson := map[string][]int{}
+	for i, r := range rows {
+		occSet[r.occ] = true
+		byPerson[r.person] = append(byPerson[r.person], i)
+	}
+	for o := range occSet {
+		pan.Occasions = append(pan.Occasions, o)
+	}
+	slices.Sort(pan.Occasions)
+	pos := map[int]int{}
+	for i, o := range pan.Occasions {
+		pos[o] = i
+	}
+	persons := make([]string, 0, len(byPerson))
+	for id := range byPerson {
+		persons = append(persons, id)
+	}
+	sortPersons(persons)
+	p := &problems{}
+	var dropped []string
+	for _, id := range persons {
+		idxs := byPerson[id]
+		seen := map[int]int{}
+		last := -1
+		for _, ri := range idxs {
+			r := rows[ri]
+			if prev, dup := seen[r.occ]; dup {
+				p.addf(file, r.line, "person %q has occasion %d twice (also on line %d); each person-occasion pair must appear once", id, r.occ, prev)
+				continue
+			}
+			seen[r.occ] = r.line
+			for k := range J {
+				if r.vals[k] != "\x00" {
+					last = max(last, pos[r.occ])
+				}
+			}
+		}
+		if last < 0 {
+			dropped = append(dropped, id)
+			continue
+		}
+		T := last + 1
+		off := len(pan.Y)
+		pan.Persons = append(pan.Persons, id)
+		pan.Offset = append(pan.Offset, off)
+		pan.Len = append(pan.Len, T)
+		for range T * J {
+			pan.Y = append(pan.Y, math.NaN())
+		}
+		for _, ri := range idxs {
+			r := rows[ri]
+			t := pos[r.occ]
+			if t >= T {
+				continue
+			}
+			for k, o := range pan.Outcomes {
+				v := r.vals[k]
+				if v == "\x00" {
+					continue
+				}
+				pan.Y[off+t*J+k] = codeOf(o, v)
+			}
+		}
+	}
+	if err := p.err(); err != nil {
+		return err
+	}
+	if len(pan.Persons) == 0 {
+		return Inputf(file, 0, "no person has an observed value of any outcome")
+	}
+	if len(dropped) > 0 {
+		pan.Notes = append(pan.Notes, fmt.Sprintf("%d person(s) with no observed value were left out: %s", len(dropped), clip(dropped, 5)))
+	}
+	for j, o := range pan.Outcomes {
+		if o.K == 0 {
+			continue
+		}
+		count := make([]int, o.K)
+		for i := range pan.Persons {
+			for t := 0; t < pan.Len[i]; t++ {
+				if v := pan.Y[pan.Offset[i]+t*J+j]; !math.IsNaN(v) {
+					count[int(v)]++
+				}
+			}
+		}
+		var empty []string
+		for c, n := range count {
+			if n == 0 {
+				empty = append(empty, o.Codes[c])
+			}
+		}
+		if len(empty) > 0 {
+			pan.Notes = append(pan.Notes, fmt.Sprintf("outcome %q: category %s never observed; its thresholds rest on the prior", o.Name, strings.Join(empty, ", ")))
+		}
+	}
+	return nil
+}
+
+func codeOf(o Outcome, v string) float64 {
+	if o.Type == Continuous {
+		f, _ := strconv.ParseFloat(v, 64)
+		return f
+	}
+	if i := slices.Index(o.Codes, v); i >= 0 {
+		return float64(i)
+	}
+	c, _ := parseOccasion(v)
+	lo, _ := strconv.Atoi(o.Codes[0])
+	return float64(c - lo)
+}
+
+// sortPersons orders ids numerically when all are integers, else as text,
+// so that results do not depend on the order of rows in the file.
+func sortPersons(ids []string) {
+	numeric := true
+	for _, id := range ids {
+		if _, err := strconv.ParseInt(id, 10, 64); err != nil {
+			numeric = false
+			break
+		}
+	}
+	if numeric {
+		slices.SortFunc(ids, func(a, b string) int {
+			x, _ := strconv.ParseInt(a, 10, 64)
+			y, _ := strconv.ParseInt(b, 10, 64)
+			return cmp.Compare(x, y)
+		})
+		return
+	}
+	slices.Sort(ids)
+}
+
+func clip(xs []string, n int) string {
+	if len(xs) <= n {
+		return strings.Join(xs, ", ")
+	}
+	return strings.Join(xs[:n], ", ") + fmt.Sprintf(" and %d more", len(xs)-n)
+}

@@ -1,0 +1,46 @@
+package model
+
+// Identify refuses option combinations that do not determine the model's
+// parameters from the data, each with a message saying why. The rules are
+// those documented in README.md ("Identification"):
+//
+//   - a stationary first occasion needs paths equal over time;
+//   - cross-lags and residual correlations need at least two outcomes;
+//   - carry-over needs at least two occasions, and with random intercepts at
+//     least three (two occasions cannot separate a stable person difference
+//     from carry-over);
+//   - random intercepts need at least two occasions;
+//   - a binary outcome with random intercepts and carry-over free over time
+//     needs at least four occasions.
+func Identify(sp *Spec, pan *Panel) error {
+	p := &problems{}
+	T := pan.T()
+	J := len(sp.Outcomes)
+	f := sp.Path
+	if sp.Within.StationaryStart && sp.Within.PathsFree {
+		p.addf(f, 0, "within.first_occasion: stationary needs within.over_time: equal; a stationary distribution exists only when the carry-over paths and innovations are the same at every occasion")
+	}
+	if sp.Within.Lags == LagsCross && J < 2 {
+		p.addf(f, 0, "within.lags: cross needs at least two outcomes (there is %d); use lags: own for one outcome", J)
+	}
+	if sp.Within.ResidualCorrelation && J < 2 {
+		p.addf(f, 0, "within.residual_correlation: true needs at least two outcomes (there is %d)", J)
+	}
+	if sp.Within.Lags != LagsNone && T < 2 {
+		p.addf(f, 0, "within.lags: %s needs at least two occasions; the data have %d", sp.Within.Lags, T)
+	}
+	if sp.Between.RandomIntercepts && T < 2 {
+		p.addf(f, 0, "between.random_intercepts: true needs at least two occasions; with one, the person difference and the occasion residual cannot be told apart")
+	}
+	if sp.Between.RandomIntercepts && sp.Within.Lags != LagsNone && T == 2 {
+		p.addf(f, 0, "between.random_intercepts with within.lags: %s needs at least three occasions; with two, a stable person difference and carry-over explain the same association", sp.Within.Lags)
+	}
+	if sp.Between.RandomIntercepts && sp.Within.Lags != LagsNone && sp.Within.PathsFree && T == 3 {
+		for _, o := range pan.Outcomes {
+			if o.Type == Binary {
+				p.addf(f, 0, "outcome %q is binary: random intercepts with carry-over free over time need at least four occasions; use within.over_time: equal", o.Name)
+			}
+		}
+	}
+	return p.err()
+}

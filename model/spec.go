@@ -1,0 +1,432 @@
+package model
+
+import (
+	"fmt"
+	"os"
+	"path/filepath"
+	"slices"
+	"strconv"
+	"strings"
+
+	"go.yaml.in/yaml/v3"
+)
+
+// OutcomeType is the measurement level of an outcome.
+type OutcomeType string
+
+// Outcome types.
+const (
+	Binary     OutcomeType = "binary"
+	Ordinal    OutcomeType = "ordinal"
+	Continuous OutcomeType = "continuous"
+)
+
+// Categorical reports whether the outcome has a latent response behind
+// observed categories.
+func (t OutcomeType) Categorical() bool { return t == Binary || t == Ordinal }
+
+// Lags is the within-person carry-over structure.
+type Lags string
+
+// Carry-over structures.
+const (
+	LagsNone  Lags = "none"  // no carry-over
+	LagsOwn   Lags = "own"   // autoregression only
+	LagsCross Lags = "cross" // autoregression plus cross-lags
+)
+
+// ThresholdUpdate selects the threshold move.
+type ThresholdUpdate string
+
+// Threshold moves.
+const (
+	// ThresholdJoint moves thresholds and latent responses together
+	// (Liu & Sabatti 2000 group move), after an Albert-Chib step.
+	ThresholdJoint ThresholdUpdate = "joint"
+	// ThresholdAlbertChib is the plain Gibbs step of Albert & Chib (1993),
+	// kept as a baseline.
+	ThresholdAlbertChib ThresholdUpdate = "albert-chib"
+)
+
+// Spec is a parsed, checked model file.
+type Spec struct {
+	Path     string // model file as given
+	Raw      []byte // its content
+	Data     DataSpec
+	Outcomes []OutcomeSpec
+	Between  BetweenSpec
+	Within   WithinSpec
+	Means    MeansSpec
+	Sampler  SamplerSpec
+}
+
+// DataSpec says where the panel is and which columns index it.
+type DataSpec struct {
+	File     string   // resolved path of the CSV
+	Person   string   // person column
+	Occasion string   // occasion column (integers)
+	Missing  []string // cell texts that mean missing
+}
+
+// OutcomeSpec is one outcome as the model file declares it.
+type OutcomeSpec struct {
+	Name       string
+	Type       OutcomeType
+	Categories int      // 0: infer from the data
+	Lowest     *int     // code of the lowest category; nil: infer
+	Labels     []string // category labels, lowest first; nil: integer codes
+	Line       int      // line of the entry in the model file
+}
+
+// BetweenSpec is the between-person part.
+type BetweenSpec struct {
+	RandomIntercepts bool
+}
+
+// WithinSpec is the within-person part.
+type WithinSpec struct {
+	Lags                Lags
+	ResidualCorrelation bool
+	residualSet         bool
+	PathsFree           bool // over_time: free
+	StationaryStart     bool // first_occasion: stationary
+}
+
+// MeansSpec is the occasion-mean structure.
+type MeansSpec struct {
+	Free bool // over_time: free
+}
+
+// SamplerSpec holds the sampler settings of the model file.
+type SamplerSpec struct {
+	Chains, Warmup, Draws int
+	Seed                  uint64
+	SeedSet               bool
+	ThresholdUpdate       ThresholdUpdate
+}
+
+// schema lists the keys allowed at each level of the model file.
+var schema = map[string][]string{
+	"":         {"data", "outcomes", "between", "within", "means", "sampler"},
+	"data":     {"file", "person", "occasion", "missing"},
+	"outcomes": {"name", "type", "categories", "lowest", "labels"},
+	"between":  {"random_intercepts"},
+	"within":   {"lags", "residual_correlation", "over_time", "first_occasion"},
+	"means":    {"over_time"},
+	"sampler":  {"chains", "warmup", "draws", "seed", "threshold_update"},
+}
+
+// ReadSpec reads and checks the model file at path. Every problem is an
+// InputError naming the file, the line and the key.
+func ReadSpec(path string) (*Spec, error) {
+	raw, err := os.ReadFile(path)
+	if err != nil {
+		if os.IsNotExist(err) {
+			return nil, Inputf(path, 0, "model file does not exist")
+		}
+		return nil, Inputf(path, 0, "cannot read model file: %v", err)
+	}
+	return ParseSpec(path, raw)
+}
+
+// ParseSpec checks the model file content raw; path names it in messages and
+// anchors the relative data path.
+func ParseSpec(path string, raw []byte) (*Spec, error) {
+	var doc yaml.Node
+	if err := yaml.Unmarshal(raw, &doc); err != nil {
+		return nil, Inputf(path, 0, "not valid YAML: %s", strings.TrimPrefix(err.Error(), "yaml: "))
+	}
+	if len(doc.Content) == 0 {
+		return nil, Inputf(path, 0, "model file is empty; it needs at least the keys data and outcomes")
+	}
+	root := doc.Content[0]
+	p := &problems{}
+	sp := &Spec{Path: path, Raw: raw}
+	sp.Data.Missing = []string{"", "NA"}
+	sp.Within.Lags = LagsCross
+	sp.Means.Free = true
+	sp.Sampler = SamplerSpec{Chains: 4, Warmup: 1000, Draws: 1000, ThresholdUpdate: ThresholdJoint}
+	r := &reader{file: path, p: p}
+	top := r.mapping(root, "")
+	if top == nil {
+		return nil, p.err()
+	}
+	if n, ok := top["data"]; ok {
+		m := r.mapping(n, "data")
+		if v, ok := m["file"]; ok {
+			sp.Data.File = r.str(v, "data.file")
+		}
+		if v, ok := m["person"]; ok {
+			sp.Data.Person = r.str(v, "data.person")
+		}
+		if v, ok := m["occasion"]; ok {
+			sp.Data.Occasion = r.str(v, "data.occasion")
+		}
+		if v, ok := m["missing"]; ok {
+			sp.Data.Missing = r.strList(v, "data.missing")
+		}
+		for _, k := range []string{"file", "person", "occasion"} {
+			if _, ok := m[k]; !ok && m != nil {
+				p.addf(path, n.Line, "data: missing key %q", k)
+			}
+		}
+	} else {
+		p.addf(path, root.Line, "missing section \"data\" (file, person, occasion)")
+	}
+	if n, ok := top["outcomes"]; ok {
+		if n.Kind != yaml.SequenceNode || len(n.Content) == 0 {
+			p.addf(path, n.Line, "outcomes: expected a list of outcomes, each with name and type")
+		} else {
+			for i, item := range n.Content {
+				sp.Outcomes = append(sp.Outcomes, r.outcome(item, i))
+			}
+		}
+	} else {
+		p.addf(path, root.Line, "missing section \"outcomes\"")
+	}
+	if n, ok := top["between"]; ok {
+		m := r.mapping(n, "between")
+		sp.Between.RandomIntercepts = true
+		if v, ok := m["random_intercepts"]; ok {
+			sp.Between.RandomIntercepts = r.boolean(v, "between.random_intercepts")
+		}
+	} else {
+		sp.Between.RandomIntercepts = true
+	}
+	if n, ok := top["within"]; ok {
+		m := r.mapping(n, "within")
+		if v, ok := m["lags"]; ok {
+			sp.Within.Lags = Lags(r.choice(v, "within.lags", "none", "own", "cross"))
+		}
+		if v, ok := m["residual_correlation"]; ok {
+			sp.Within.ResidualCorrelation = r.boolean(v, "within.residual_correlation")
+			sp.Within.residualSet = true
+		}
+		if v, ok := m["over_time"]; ok {
+			sp.Within.PathsFree = r.choice(v, "within.over_time", "equal", "free") == "free"
+		}
+		if v, ok := m["first_occasion"]; ok {
+			sp.Within.StationaryStart = r.choice(v, "within.first_occasion", "free", "stationary") == "stationary"
+		}
+	}
+	if n, ok := top["means"]; ok {
+		m := r.mapping(n, "means")
+		if v, ok := m["over_time"]; ok {
+			sp.Means.Free = r.choice(v, "means.over_time", "free", "equal") == "free"
+		}
+	}
+	if n, ok := top["sampler"]; ok {
+		m := r.mapping(n, "sampler")
+		if v, ok := m["chains"]; ok {
+			sp.Sampler.Chains = r.intIn(v, "sampler.chains", 1, 64)
+		}
+		if v, ok := m["warmup"]; ok {
+			sp.Sampler.Warmup = r.intIn(v, "sampler.warmup", 0, 10_000_000)
+		}
+		if v, ok := m["draws"]; ok {
+			sp.Sampler.Draws = r.intIn(v, "sampler.draws", 1, 10_000_000)
+		}
+		if v, ok := m["seed"]; ok {
+			s, err := strconv.ParseUint(v.Value, 10, 64)
+			if err != nil || v.Kind != yaml.ScalarNode {
+				p.addf(path, v.Line, "sampler.seed: expected a whole number from 0 to %d, got %q", uint64(1<<64-1), v.Value)
+			}
+			sp.Sampler.Seed, sp.Sampler.SeedSet = s, true
+		}
+		if v, ok := m["threshold_update"]; ok {
+			sp.Sampler.ThresholdUpdate = ThresholdUpdate(r.choice(v, "sampler.threshold_update", "joint", "albert-chib"))
+		}
+	}
+	if !sp.Within.residualSet {
+		sp.Within.ResidualCorrelation = len(sp.Outcomes) > 1
+	}
+	if sp.Data.File != "" && !filepath.IsAbs(sp.Data.File) {
+		sp.Data.File = filepath.Join(filepath.Dir(path), sp.Data.File)
+	}
+	sp.checkOutcomes(p, root.Line)
+	if err := p.err(); err != nil {
+		return nil, err
+	}
+	return sp, nil
+}
+
+func (sp *Spec) checkOutcomes(p *problems, line int) {
+	if len(sp.Outcomes) > 6 {
+		p.addf(sp.Path, line, "outcomes: %d outcomes given, at most 6 are supported", len(sp.Outcomes))
+	}
+	seen := map[string]int{}
+	for _, o := range sp.Outcomes {
+		if o.Name == "" {
+			continue
+		}
+		if prev, ok := seen[o.Name]; ok {
+			p.addf(sp.Path, o.Line, "outcomes: %q is listed twice (first at line %d)", o.Name, prev)
+		}
+		seen[o.Name] = o.Line
+		if o.Name == sp.Data.Person || o.Name == sp.Data.Occasion {
+			p.addf(sp.Path, o.Line, "outcomes: %q is also the person or occasion column", o.Name)
+		}
+	}
+}
+
+// reader walks the YAML tree, checking keys and value types.
+type reader struct {
+	file string
+	p    *problems
+}
+
+func (r *reader) mapping(n *yaml.Node, section string) map[string]*yaml.Node {
+	if n.Kind != yaml.MappingNode {
+		where := section
+		if where == "" {
+			where = "model file"
+		}
+		r.p.addf(r.file, n.Line, "%s: expected a set of keys, got %q", where, n.Value)
+		return nil
+	}
+	allowed := schema[section]
+	out := map[string]*yaml.Node{}
+	for i := 0; i+1 < len(n.Content); i += 2 {
+		k, v := n.Content[i], n.Content[i+1]
+		name := k.Value
+		if !slices.Contains(allowed, name) {
+			where := "unknown key"
+			if section != "" {
+				where = "unknown key in " + section
+			}
+			r.p.addf(r.file, k.Line, "%s: %q%s; allowed: %s", where, name, suggest(name, allowed), strings.Join(allowed, ", "))
+			continue
+		}
+		if _, dup := out[name]; dup {
+			r.p.addf(r.file, k.Line, "key %q given twice", name)
+		}
+		out[name] = v
+	}
+	return out
+}
+
+func (r *reader) str(n *yaml.Node, key string) string {
+	if n.Kind != yaml.ScalarNode || n.Value == "" {
+		r.p.addf(r.file, n.Line, "%s: expected a non-empty text", key)
+		return ""
+	}
+	return n.Value
+}
+
+func (r *reader) strList(n *yaml.Node, key string) []string {
+	if n.Kind == yaml.ScalarNode {
+		return []string{n.Value}
+	}
+	if n.Kind != yaml.SequenceNode {
+		r.p.addf(r.file, n.Line, "%s: expected a list of texts", key)
+		return nil
+	}
+	out := make([]string, 0, len(n.Content))
+	for _, c := range n.Content {
+		if c.Kind != yaml.ScalarNode {
+			r.p.addf(r.file, c.Line, "%s: expected a text, got a nested value", key)
+			continue
+		}
+		out = append(out, c.Value)
+	}
+	return out
+}
+
+func (r *reader) boolean(n *yaml.Node, key string) bool {
+	switch strings.ToLower(n.Value) {
+	case "true", "yes", "on":
+		return true
+	case "false", "no", "off":
+		return false
+	}
+	r.p.addf(r.file, n.Line, "%s: expected true or false, got %q", key, n.Value)
+	return false
+}
+
+func (r *reader) choice(n *yaml.Node, key string, options ...string) string {
+	if n.Kind == yaml.ScalarNode && slices.Contains(options, n.Value) {
+		return n.Value
+	}
+	r.p.addf(r.file, n.Line, "%s: expected one of %s, got %q%s", key, strings.Join(options, ", "), n.Value, suggest(n.Value, options))
+	return options[0]
+}
+
+func (r *reader) intIn(n *yaml.Node, key string, lo, hi int) int {
+	v, err := strconv.Atoi(n.Value)
+	if err != nil || n.Kind != yaml.ScalarNode || v < lo || v > hi {
+		r.p.addf(r.file, n.Line, "%s: expected a whole number from %d to %d, got %q", key, lo, hi, n.Value)
+		return lo
+	}
+	return v
+}
+
+func (r *reader) outcome(n *yaml.Node, i int) OutcomeSpec {
+	o := OutcomeSpec{Line: n.Line}
+	m := r.mapping(n, "outcomes")
+	if m == nil {
+		return o
+	}
+	key := fmt.Sprintf("outcomes[%d]", i+1)
+	if v, ok := m["name"]; ok {
+		o.Name = r.str(v, key+".name")
+	} else {
+		r.p.addf(r.file, n.Line, "%s: missing key \"name\" (the CSV column of the outcome)", key)
+	}
+	if o.Name != "" {
+		key = fmt.Sprintf("outcome %q", o.Name)
+	}
+	if v, ok := m["type"]; ok {
+		o.Type = OutcomeType(r.choice(v, key+": type", "ordinal", "binary", "continuous"))
+	} else {
+		r.p.addf(r.file, n.Line, "%s: missing key \"type\" (ordinal, binary or continuous)", key)
+	}
+	if v, ok := m["categories"]; ok {
+		o.Categories = r.intIn(v, key+": categories", 2, 11)
+		if o.Type == Continuous {
+			r.p.addf(r.file, v.Line, "%s: categories given for a continuous outcome", key)
+		}
+		if o.Type == Binary && o.Categories != 2 {
+			r.p.addf(r.file, v.Line, "%s: a binary outcome has 2 categories, got %d", key, o.Categories)
+		}
+		if o.Type == Ordinal && o.Categories < 3 {
+			r.p.addf(r.file, v.Line, "%s: an ordinal outcome needs 3 to 11 categories, got %d (use type: binary for two)", key, o.Categories)
+		}
+	}
+	if v, ok := m["lowest"]; ok {
+		lw, err := strconv.Atoi(v.Value)
+		if err != nil {
+			r.p.addf(r.file, v.Line, "%s: lowest: expected a whole number (the code of the lowest category), got %q", key, v.Value)
+		}
+		o.Lowest = &lw
+		if o.Type == Continuous {
+			r.p.addf(r.file, v.Line, "%s: lowest given for a continuous outcome", key)
+		}
+	}
+	if v, ok := m["labels"]; ok {
+		o.Labels = r.strList(v, key+": labels")
+		if o.Type == Continuous {
+			r.p.addf(r.file, v.Line, "%s: labels given for a continuous outcome", key)
+		}
+		seen := map[string]bool{}
+		for _, l := range o.Labels {
+			if seen[l] {
+				r.p.addf(r.file, v.Line, "%s: label %q listed twice", key, l)
+			}
+			seen[l] = true
+		}
+		if o.Categories != 0 && o.Categories != len(o.Labels) {
+			r.p.addf(r.file, v.Line, "%s: %d labels but categories: %d", key, len(o.Labels), o.Categories)
+		}
+		if o.Lowest != nil {
+			r.p.addf(r.file, v.Line, "%s: give either labels or lowest, not both", key)
+		}
+		if o.Type == Binary && len(o.Labels) != 2 {
+			r.p.addf(r.file, v.Line, "%s: a binary outcome needs exactly 2 labels, got %d", key, len(o.Labels))
+		}
+		if o.Type == Ordinal && (len(o.Labels) < 3 || len(o.Labels) > 11) {
+			r.p.addf(r.file, v.Line, "%s: an ordinal outcome needs 3 to 11 labels, got %d", key, len(o.Labels))
+		}
+		o.Categories = len(o.Labels)
+	}
+	return o
+}

@@ -1,0 +1,229 @@
+package sampler
+
+import (
+	"math"
+	"math/rand/v2"
+
+	"github.com/lagstar/lagstar/internal/dense"
+	"github.com/lagstar/lagstar/latentresp"
+)
+
+// A Block draws one group of parameters from its full conditional, or makes
+// a Metropolis-Hastings move that leaves it invariant.
+type Block interface {
+	Name() string
+	Update(st *State, rng *rand.Rand) error
+}
+
+// LatentBlock draws every latent response y*_ijt of a categorical or missing
+// cell from its full conditional: a normal with precision and mean taken
+// from the block-tridiagonal precision of the person's VAR(1) path,
+// truncated to the observed category's threshold interval (Albert & Chib
+// 1993). Missing cells are drawn without truncation (missing at random).
+// Reads B, Nu, Tau and the precision caches; writes Ystar.
+type LatentBlock struct{ w []float64 }
+
+// NewLatentBlock allocates the block's workspace.
+func NewLatentBlock(l *Layout) *LatentBlock {
+	return &LatentBlock{w: make([]float64, l.MaxLen*l.J)}
+}
+
+// Name implements Block.
+func (*LatentBlock) Name() string { return "latent responses" }
+
+// Update implements Block.
+func (lb *LatentBlock) Update(st *State, rng *rand.Rand) error {
+	l := st.L
+	J := l.J
+	JJ := J * J
+	w := lb.w
+	for i := 0; i < l.N; i++ {
+		off := l.Panel.Offset[i]
+		Ti := l.Panel.Len[i]
+		st.fillW(w, i, st.Ystar)
+		b := st.B[i*J : i*J+J]
+		for t := 0; t < Ti; t++ {
+			d := st.DMid[t*JJ : (t+1)*JJ]
+			if t == Ti-1 {
+				d = st.SigInv[t*JJ : (t+1)*JJ]
+			}
+			for j := 0; j < J; j++ {
+				c := off + t*J + j
+				y := st.Y[c]
+				miss := math.IsNaN(y)
+				if !miss && !l.Cat[j] {
+					continue
+				}
+				acc := 0.0
+				for k := 0; k < J; k++ {
+					if k != j {
+						acc += d[j*J+k] * w[t*J+k]
+					}
+				}
+				if t > 0 {
+					lt := st.LBlk[t*JJ : (t+1)*JJ]
+					for k := 0; k < J; k++ {
+						acc += lt[j*J+k] * w[(t-1)*J+k]
+					}
+				}
+				if t+1 < Ti {
+					ln := st.LBlk[(t+1)*JJ : (t+2)*JJ]
+					for k := 0; k < J; k++ {
+						acc += ln[k*J+j] * w[(t+1)*J+k]
+					}
+				}
+				prec := d[j*J+j]
+				mean := -acc / prec
+				sd := 1 / math.Sqrt(prec)
+				if miss {
+					w[t*J+j] = mean + sd*rng.NormFloat64()
+					continue
+				}
+				shift := st.Nu[t*J+j] + b[j]
+				lo, hi := st.interval(j, int(y))
+				w[t*J+j] = latentresp.TruncNormal(rng, mean, sd, lo-shift, hi-shift)
+			}
+		}
+		for c := 0; c < Ti*J; c++ {
+			st.Ystar[off+c] = w[c] + st.Nu[c] + b[c%J]
+		}
+	}
+	return nil
+}
+
+// InterceptBlock draws each person's random intercepts b_i from their
+// multivariate normal full conditional given the latent responses: with
+// e_t = y*_t - nu_t, the innovations are zeta_1 = e_1 - b and
+// zeta_t = (e_t - A_t e_{t-1}) - (I - A_t) b, so b_i has precision
+// Psi^{-1} + Sigma_1^{-1} + sum_t (I-A_t)' Sigma_t^{-1} (I-A_t).
+// Reads Ystar, Nu, A, Psi and the caches; writes B.
+type InterceptBlock struct {
+	g     []float64 // T blocks: (I-A_t)' Sigma_t^{-1}
+	cum   []float64 // T blocks: precision for a person with t+1 occasions
+	chol  []float64 // T blocks: Cholesky factors of cum
+	psiIn []float64
+	e, h  []float64
+	tmp   []float64
+}
+
+// NewInterceptBlock allocates the block's workspace.
+func NewInterceptBlock(l *Layout) *InterceptBlock {
+	J, T := l.J, l.T
+	return &InterceptBlock{g: make([]float64, T*J*J), cum: make([]float64, T*J*J), chol: make([]float64, T*J*J),
+		psiIn: make([]float64, J*J), e: make([]float64, l.MaxLen*J), h: make([]float64, J), tmp: make([]float64, 3*J*J)}
+}
+
+// Name implements Block.
+func (*InterceptBlock) Name() string { return "random intercepts" }
+
+// Update implements Block.
+func (ib *InterceptBlock) Update(st *State, rng *rand.Rand) error {
+	l := st.L
+	J, T := l.J, l.T
+	JJ := J * J
+	if !dense.Inverse(ib.psiIn, st.Psi, J, ib.tmp[:JJ], ib.tmp[JJ:JJ+J]) {
+		return errBlock("random intercepts", "random-intercept covariance is not positive definite")
+	}
+	ima := ib.tmp[:JJ]
+	for t := 0; t < T; t++ {
+		cum := ib.cum[t*JJ : (t+1)*JJ]
+		if t == 0 {
+			for k := range cum {
+				cum[k] = ib.psiIn[k] + st.SigInv[k]
+			}
+		} else {
+			copy(cum, ib.cum[(t-1)*JJ:t*JJ])
+			a := st.A[t*JJ : (t+1)*JJ]
+			for k := range ima {
+				ima[k] = -a[k]
+			}
+			for k := 0; k < J; k++ {
+				ima[k*J+k]++
+			}
+			g := ib.g[t*JJ : (t+1)*JJ]
+			dense.MulTA(g, ima, st.SigInv[t*JJ:(t+1)*JJ], J, J, J)
+			hm := ib.tmp[JJ : 2*JJ]
+			dense.Mul(hm, g, ima, J, J, J)
+			for k := range cum {
+				cum[k] += hm[k]
+			}
+		}
+		ch := ib.chol[t*JJ : (t+1)*JJ]
+		copy(ch, cum)
+		if !dense.Cholesky(ch, J) {
+			return errBlock("random intercepts", "conditional precision is not positive definite")
+		}
+	}
+	e, h := ib.e, ib.h
+	r := ib.tmp[2*JJ : 2*JJ+J]
+	for i := 0; i < l.N; i++ {
+		off := l.Panel.Offset[i]
+		Ti := l.Panel.Len[i]
+		for c := 0; c < Ti*J; c++ {
+			e[c] = st.Ystar[off+c] - st.Nu[c]
+		}
+		dense.MulVec(h, st.SigInv[:JJ], e[:J], J, J)
+		for t := 1; t < Ti; t++ {
+			a := st.A[t*JJ : (t+1)*JJ]
+			for q := 0; q < J; q++ {
+				v := e[t*J+q]
+				for k := 0; k < J; k++ {
+					v -= a[q*J+k] * e[(t-1)*J+k]
+				}
+				r[q] = v
+			}
+			g := ib.g[t*JJ : (t+1)*JJ]
+			for q := 0; q < J; q++ {
+				v := 0.0
+				for k := 0; k < J; k++ {
+					v += g[q*J+k] * r[k]
+				}
+				h[q] += v
+			}
+		}
+		ch := ib.chol[(Ti-1)*JJ : Ti*JJ]
+		dense.SolveLower(ch, J, h)
+		for q := 0; q < J; q++ {
+			h[q] += rng.NormFloat64()
+		}
+		dense.SolveUpperT(ch, J, h)
+		copy(st.B[i*J:i*J+J], h)
+	}
+	return nil
+}
+
+// PsiBlock draws the random-intercept covariance from its conjugate
+// inverse-Wishart full conditional IW(df0 + N, S0 + sum_i b_i b_i').
+// Reads B; writes Psi.
+type PsiBlock struct{ s, work []float64 }
+
+// NewPsiBlock allocates the block's workspace.
+func NewPsiBlock(l *Layout) *PsiBlock {
+	return &PsiBlock{s: make([]float64, l.J*l.J), work: make([]float64, 3*l.J*l.J+l.J)}
+}
+
+// Name implements Block.
+func (*PsiBlock) Name() string { return "random-intercept covariance" }
+
+// Update implements Block.
+func (pb *PsiBlock) Update(st *State, rng *rand.Rand) error {
+	l := st.L
+	J := l.J
+	dense.Identity(pb.s, J)
+	for k := range pb.s {
+		pb.s[k] *= l.Priors.RIScale
+	}
+	for i := 0; i < l.N; i++ {
+		b := st.B[i*J : i*J+J]
+		for a := 0; a < J; a++ {
+			for c := 0; c < J; c++ {
+				pb.s[a*J+c] += b[a] * b[c]
+			}
+		}
+	}
+	df := float64(J) + l.Priors.RIDfExtra + float64(l.N)
+	if !invWishart(st.Psi, rng, df, pb.s, J, pb.work) {
+		return errBlock("random-intercept covariance", "scale matrix is not positive definite")
+	}
+	return nil
+}

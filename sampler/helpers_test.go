@@ -1,0 +1,76 @@
+package sampler
+
+import (
+	"context"
+	"math"
+	"math/rand/v2"
+	"os"
+	"slices"
+	"strconv"
+	"testing"
+
+	"github.com/lagstar/lagstar/model"
+	"github.com/lagstar/lagstar/priors"
+)
+
+// layoutFrom builds a layout from model-file text and CSV content.
+func layoutFrom(t testing.TB, yamlText string, csv []byte) *Layout {
+	t.Helper()
+	sp, err := model.ParseSpec("test.yaml", []byte(yamlText))
+	if err != nil {
+		t.Fatalf("ParseSpec: %v", err)
+	}
+	pan, err := model.ParsePanel(sp, "test.csv", csv)
+	if err != nil {
+		t.Fatalf("ParsePanel: %v", err)
+	}
+	if err := model.Identify(sp, pan); err != nil {
+		t.Fatalf("Identify: %v", err)
+	}
+	return NewLayout(sp, pan, priors.Default())
+}
+
+// summary is a small posterior summary for tests.
+type summary struct {
+	mean, lo, hi float64
+}
+
+func summarize(res *Result) map[string]summary {
+	out := map[string]summary{}
+	np := len(res.Params)
+	for p, par := range res.Params {
+		var xs []float64
+		for c := range res.Draws {
+			for d := 0; d < res.Kept[c]; d++ {
+				xs = append(xs, res.Draws[c][d*np+p])
+			}
+		}
+		slices.Sort(xs)
+		m := 0.0
+		for _, x := range xs {
+			m += x
+		}
+		m /= float64(len(xs))
+		q := func(p float64) float64 { return xs[int(math.Round(p*float64(len(xs)-1)))] }
+		out[par.Name] = summary{m, q(0.025), q(0.975)}
+	}
+	return out
+}
+
+func runFit(t testing.TB, l *Layout, chains, warmup, draws int, seed uint64) *Result {
+	t.Helper()
+	res, err := Run(context.Background(), l, Options{Chains: chains, Warmup: warmup, Draws: draws, Seed: seed, ThresholdUpdate: model.ThresholdJoint})
+	if err != nil {
+		t.Fatalf("Run: %v", err)
+	}
+	return res
+}
+
+func newRand(seed uint64) *rand.Rand { return rand.New(rand.NewPCG(seed, seed+1)) }
+
+func envInt(name string, def int) int {
+	if v, err := strconv.Atoi(os.Getenv(name)); err == nil {
+		return v
+	}
+	return def
+}

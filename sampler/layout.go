@@ -1,0 +1,185 @@
+package sampler
+
+import (
+	"math"
+
+	"github.com/lagstar/lagstar/model"
+	"github.com/lagstar/lagstar/priors"
+)
+
+// Layout is the fixed structure of a fit: which parameters are free, how the
+// mean parameters map onto occasions, which covariance groups exist. It is
+// built once from the model file and the panel and shared read-only by all
+// chains.
+type Layout struct {
+	Spec   *model.Spec
+	Panel  *model.Panel
+	Priors priors.Set
+
+	J, T, N   int
+	Cat       []bool    // outcome j is categorical
+	K         []int     // categories (0 continuous)
+	Center    []float64 // continuous outcomes are analysed as (y - Center)/Scale
+	Scale     []float64
+	RI        bool
+	Lags      model.Lags
+	ResCorr   bool
+	PathsFree bool
+	Stat      bool // stationary first occasion
+	MeansFree bool
+
+	// MeanIdx[t*J+j] is the index of the free mean parameter of outcome j at
+	// grid occasion t, or -1 where the mean is fixed at 0.
+	MeanIdx []int
+	NMean   int
+	// PathFree[r*J+c] marks A[r,c] as free.
+	PathFree []bool
+	// Groups are the free covariance matrices; GroupOf[t] is the group of
+	// Sigma_t (t = 0: first occasion), or -1 for a stationary first occasion.
+	Groups  []CovGroup
+	GroupOf []int
+	// CountAt[t] is the number of persons observed up to at least grid occasion t.
+	CountAt []int
+	MaxLen  int
+}
+
+// CovGroup is one free covariance matrix: the first occasion's or an
+// innovation covariance shared by the occasions in Occ.
+type CovGroup struct {
+	Initial bool
+	Occ     []int // grid occasions using this matrix
+	FreeSD  []bool
+	Corr    bool
+}
+
+// NewLayout derives the layout; sp and pan must have passed model.Identify.
+func NewLayout(sp *model.Spec, pan *model.Panel, pr priors.Set) *Layout {
+	J, T := pan.J(), pan.T()
+	l := &Layout{Spec: sp, Panel: pan, Priors: pr, J: J, T: T, N: len(pan.Persons),
+		RI: sp.Between.RandomIntercepts, Lags: sp.Within.Lags, ResCorr: sp.Within.ResidualCorrelation,
+		PathsFree: sp.Within.PathsFree, Stat: sp.Within.StationaryStart, MeansFree: sp.Means.Free}
+	if T < 2 {
+		l.Lags = model.LagsNone
+	}
+	l.Cat = make([]bool, J)
+	l.K = make([]int, J)
+	l.Center = make([]float64, J)
+	l.Scale = make([]float64, J)
+	for j, o := range pan.Outcomes {
+		l.Cat[j] = o.Type.Categorical()
+		l.K[j] = o.K
+		l.Scale[j] = 1
+		if !l.Cat[j] {
+			l.Center[j], l.Scale[j] = meanSD(pan, j)
+		}
+	}
+	// Means: categorical outcomes have nu_j0 = 0 (location from thresholds);
+	// continuous outcomes have a free first mean.
+	l.MeanIdx = make([]int, T*J)
+	for i := range l.MeanIdx {
+		l.MeanIdx[i] = -1
+	}
+	for t := 0; t < T; t++ {
+		for j := 0; j < J; j++ {
+			switch {
+			case l.MeansFree && (t > 0 || !l.Cat[j]):
+				l.MeanIdx[t*J+j] = l.NMean
+				l.NMean++
+			}
+		}
+	}
+	if !l.MeansFree {
+		for j := 0; j < J; j++ {
+			if !l.Cat[j] {
+				for t := 0; t < T; t++ {
+					l.MeanIdx[t*J+j] = l.NMean
+				}
+				l.NMean++
+			}
+		}
+	}
+	l.PathFree = make([]bool, J*J)
+	for r := 0; r < J; r++ {
+		for c := 0; c < J; c++ {
+			l.PathFree[r*J+c] = l.Lags == model.LagsCross || (l.Lags == model.LagsOwn && r == c)
+		}
+	}
+	freeSD := make([]bool, J)
+	anyFree := false
+	for j := range freeSD {
+		freeSD[j] = !l.Cat[j]
+		anyFree = anyFree || freeSD[j]
+	}
+	corr := l.ResCorr && J > 1
+	l.GroupOf = make([]int, T)
+	add := func(g CovGroup) int {
+		l.Groups = append(l.Groups, g)
+		return len(l.Groups) - 1
+	}
+	// First occasion.
+	if l.Stat && l.Lags != model.LagsNone {
+		l.GroupOf[0] = -1
+	} else if l.Stat {
+		// No carry-over: the stationary distribution is the innovation one.
+		l.GroupOf[0] = -2
+	} else {
+		l.GroupOf[0] = add(CovGroup{Initial: true, Occ: []int{0}, FreeSD: freeSD, Corr: corr})
+	}
+	if T > 1 {
+		if l.PathsFree {
+			for t := 1; t < T; t++ {
+				l.GroupOf[t] = add(CovGroup{Occ: []int{t}, FreeSD: freeSD, Corr: corr})
+			}
+		} else {
+			occ := make([]int, 0, T-1)
+			for t := 1; t < T; t++ {
+				occ = append(occ, t)
+			}
+			g := add(CovGroup{Occ: occ, FreeSD: freeSD, Corr: corr})
+			for t := 1; t < T; t++ {
+				l.GroupOf[t] = g
+			}
+		}
+	}
+	if l.GroupOf[0] == -2 {
+		if T > 1 {
+			l.GroupOf[0] = l.GroupOf[1]
+			l.Groups[l.GroupOf[1]].Occ = append([]int{0}, l.Groups[l.GroupOf[1]].Occ...)
+		} else {
+			l.GroupOf[0] = add(CovGroup{Initial: true, Occ: []int{0}, FreeSD: freeSD, Corr: corr})
+		}
+	}
+	_ = anyFree
+	l.CountAt = make([]int, T)
+	for _, n := range pan.Len {
+		l.MaxLen = max(l.MaxLen, n)
+		for t := 0; t < n; t++ {
+			l.CountAt[t]++
+		}
+	}
+	return l
+}
+
+func meanSD(pan *model.Panel, j int) (float64, float64) {
+	J := pan.J()
+	var n, s, ss float64
+	for c := j; c < len(pan.Y); c += J {
+		if v := pan.Y[c]; !math.IsNaN(v) {
+			n++
+			s += v
+			ss += v * v
+		}
+	}
+	if n == 0 {
+		return 0, 1
+	}
+	m := s / n
+	v := ss/n - m*m
+	if !(v > 1e-300) {
+		return m, 1
+	}
+	return m, math.Sqrt(v)
+}
+
+// HasPaths reports whether the model has carry-over.
+func (l *Layout) HasPaths() bool { return l.Lags != model.LagsNone }

@@ -1,0 +1,305 @@
+package sampler
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+
+	"github.com/lagstar/lagstar/internal/dense"
+	"github.com/lagstar/lagstar/latentresp"
+	"github.com/lagstar/lagstar/model"
+)
+
+// State is one chain's current values. Cell (i, t, j) of Ystar is at
+// Offset[i]+t*J+j as in model.Panel. The within-person part is not stored:
+// w = Ystar - Nu - B is recomputed where needed. Matrices are row-major J x J.
+type State struct {
+	L *Layout
+
+	Ystar []float64   // latent responses (continuous outcomes: standardized data)
+	Y     []float64   // data on the analysis scale (categories, standardized values, NaN)
+	B     []float64   // random intercepts, N x J
+	Tau   [][]float64 // thresholds per outcome (nil for continuous)
+	Mean  []float64   // free mean parameters (Layout.MeanIdx)
+	Nu    []float64   // occasion means, T x J, from Mean
+	A     []float64   // carry-over, T blocks of J x J; block 0 unused
+	SD    [][]float64 // per covariance group: standard deviations
+	R     [][]float64 // per covariance group: correlation matrix
+	Sig   []float64   // Sigma_t, T blocks (block 0: first occasion)
+	Psi   []float64   // random-intercept covariance
+
+	// Caches refreshed by Refresh.
+	SigInv []float64 // Sigma_t^{-1}
+	LBlk   []float64 // -Sigma_t^{-1} A_t: the (t, t-1) block of the path precision
+	DMid   []float64 // Sigma_t^{-1} + A_{t+1}' Sigma_{t+1}^{-1} A_{t+1}
+	LogDet []float64 // log det Sigma_t
+
+	Warmup bool // adaptation allowed
+	work   []float64
+}
+
+// NewState allocates a state and sets over-dispersed starting values drawn
+// from rng.
+func NewState(l *Layout, rng *rand.Rand) *State {
+	J, T, N := l.J, l.T, l.N
+	s := &State{L: l,
+		Ystar: make([]float64, len(l.Panel.Y)), Y: make([]float64, len(l.Panel.Y)),
+		B: make([]float64, N*J), Tau: make([][]float64, J), Mean: make([]float64, l.NMean),
+		Nu: make([]float64, T*J), A: make([]float64, T*J*J), Sig: make([]float64, T*J*J),
+		Psi: make([]float64, J*J), SigInv: make([]float64, T*J*J), LBlk: make([]float64, T*J*J),
+		DMid: make([]float64, T*J*J), LogDet: make([]float64, T), work: make([]float64, 6*J*J+2*J),
+	}
+	for c, v := range l.Panel.Y {
+		j := c % J
+		if !l.Cat[j] && !math.IsNaN(v) {
+			v = (v - l.Center[j]) / l.Scale[j]
+		}
+		s.Y[c] = v
+	}
+	// Thresholds from the marginal proportions, jittered.
+	for j := 0; j < J; j++ {
+		if !l.Cat[j] {
+			continue
+		}
+		K := l.K[j]
+		count := make([]float64, K)
+		n := 0.0
+		for c := j; c < len(s.Y); c += J {
+			if v := s.Y[c]; !math.IsNaN(v) {
+				count[int(v)]++
+				n++
+			}
+		}
+		tau := make([]float64, K-1)
+		cum := 0.0
+		for k := 0; k < K-1; k++ {
+			cum += count[k]
+			p := (cum + 0.5) / (n + float64(K)*0.5)
+			tau[k] = normalQuantile(p) + 0.2*(rng.Float64()-0.5)
+			if k > 0 && tau[k] <= tau[k-1]+0.05 {
+				tau[k] = tau[k-1] + 0.05
+			}
+		}
+		s.Tau[j] = tau
+	}
+	for i := range s.Mean {
+		s.Mean[i] = 0.2 * (rng.Float64() - 0.5)
+	}
+	s.syncNu()
+	for t := 1; t < T; t++ {
+		for r := 0; r < J; r++ {
+			for c := 0; c < J; c++ {
+				if l.PathFree[r*J+c] {
+					s.A[(t*J+r)*J+c] = 0.2 * (rng.Float64() - 0.5)
+				}
+			}
+		}
+	}
+	if !l.PathsFree {
+		for t := 2; t < T; t++ {
+			copy(s.A[t*J*J:(t+1)*J*J], s.A[J*J:2*J*J])
+		}
+	}
+	s.SD = make([][]float64, len(l.Groups))
+	s.R = make([][]float64, len(l.Groups))
+	for g, grp := range l.Groups {
+		s.SD[g] = make([]float64, J)
+		s.R[g] = make([]float64, J*J)
+		dense.Identity(s.R[g], J)
+		for j := 0; j < J; j++ {
+			s.SD[g][j] = 1
+			if grp.FreeSD[j] {
+				s.SD[g][j] = 0.6 + 0.3*rng.Float64()
+			}
+		}
+	}
+	for j := 0; j < J; j++ {
+		if l.RI {
+			s.Psi[j*J+j] = 0.3 + 0.4*rng.Float64()
+		}
+	}
+	if err := s.Refresh(); err != nil {
+		panic("sampler: starting values not valid: " + err.Error())
+	}
+	// Latent responses: draws inside each observed category given the
+	// starting thresholds and means.
+	for i := 0; i < N; i++ {
+		off := l.Panel.Offset[i]
+		for t := 0; t < l.Panel.Len[i]; t++ {
+			for j := 0; j < J; j++ {
+				c := off + t*J + j
+				v := s.Y[c]
+				mu := s.Nu[t*J+j]
+				switch {
+				case math.IsNaN(v):
+					s.Ystar[c] = mu + rng.NormFloat64()
+				case l.Cat[j]:
+					lo, hi := s.interval(j, int(v))
+					s.Ystar[c] = latentresp.TruncNormal(rng, mu, 1, lo, hi)
+				default:
+					s.Ystar[c] = v
+				}
+			}
+		}
+	}
+	return s
+}
+
+// interval returns the threshold interval of category k of outcome j.
+func (s *State) interval(j, k int) (float64, float64) {
+	tau := s.Tau[j]
+	lo, hi := math.Inf(-1), math.Inf(1)
+	if k > 0 {
+		lo = tau[k-1]
+	}
+	if k < len(tau) {
+		hi = tau[k]
+	}
+	return lo, hi
+}
+
+// syncNu recomputes the occasion means from the free mean parameters.
+func (s *State) syncNu() {
+	for i, idx := range s.L.MeanIdx {
+		if idx >= 0 {
+			s.Nu[i] = s.Mean[idx]
+		} else {
+			s.Nu[i] = 0
+		}
+	}
+}
+
+// groupCov writes the covariance D R D of group g into dst.
+func (s *State) groupCov(dst []float64, g int) {
+	J := s.L.J
+	sd, r := s.SD[g], s.R[g]
+	for a := 0; a < J; a++ {
+		for b := 0; b < J; b++ {
+			dst[a*J+b] = sd[a] * r[a*J+b] * sd[b]
+		}
+	}
+}
+
+// Refresh recomputes Sigma_t and the precision blocks from the parameters.
+// It returns an error when a matrix is not positive definite or the
+// carry-over is not stable under a stationary start.
+func (s *State) Refresh() error {
+	l := s.L
+	J, T := l.J, l.T
+	JJ := J * J
+	for t := 0; t < T; t++ {
+		g := l.GroupOf[t]
+		if g >= 0 {
+			s.groupCov(s.Sig[t*JJ:(t+1)*JJ], g)
+		}
+	}
+	if l.GroupOf[0] == -1 {
+		if !stationaryCov(s.Sig[:JJ], s.A[JJ:2*JJ], s.Sig[JJ:2*JJ], J, s.work) {
+			return fmt.Errorf("carry-over matrix is not stable; no stationary distribution")
+		}
+	}
+	chol, w := s.work[:JJ], s.work[JJ:JJ+J]
+	for t := 0; t < T; t++ {
+		copy(chol, s.Sig[t*JJ:(t+1)*JJ])
+		if !dense.Cholesky(chol, J) {
+			return fmt.Errorf("covariance at occasion %d is not positive definite", l.Panel.Occasions[t])
+		}
+		s.LogDet[t] = dense.LogDetChol(chol, J)
+		dense.InverseFromChol(s.SigInv[t*JJ:(t+1)*JJ], chol, J, w)
+	}
+	tmp := s.work[2*JJ : 3*JJ]
+	for t := 0; t < T; t++ {
+		si := s.SigInv[t*JJ : (t+1)*JJ]
+		if t > 0 {
+			dense.Mul(s.LBlk[t*JJ:(t+1)*JJ], si, s.A[t*JJ:(t+1)*JJ], J, J, J)
+			for k := t * JJ; k < (t+1)*JJ; k++ {
+				s.LBlk[k] = -s.LBlk[k]
+			}
+		}
+		d := s.DMid[t*JJ : (t+1)*JJ]
+		copy(d, si)
+		if t+1 < T {
+			// A' Sigma^{-1} A = -A' * LBlk[t+1]
+			an := s.A[(t+1)*JJ : (t+2)*JJ]
+			sn := s.SigInv[(t+1)*JJ : (t+2)*JJ]
+			dense.Mul(tmp, sn, an, J, J, J)
+			for a := 0; a < J; a++ {
+				for b := 0; b < J; b++ {
+					v := 0.0
+					for k := 0; k < J; k++ {
+						v += an[k*J+a] * tmp[k*J+b]
+					}
+					d[a*J+b] += v
+				}
+			}
+		}
+	}
+	return nil
+}
+
+// stationaryCov solves v = a v a' + s after checking stability.
+func stationaryCov(v, a, s []float64, J int, work []float64) bool {
+	w := work[3*J*J : 6*J*J]
+	if !dense.SpectralRadiusBelowOne(a, J, w) {
+		return false
+	}
+	return dense.StationaryCov(v, a, s, J, w)
+}
+
+// fillW writes person i's within part w = Ystar - Nu - B into w.
+func (s *State) fillW(w []float64, i int, ys []float64) {
+	l := s.L
+	J := l.J
+	off := l.Panel.Offset[i]
+	n := l.Panel.Len[i] * J
+	b := s.B[i*J : i*J+J]
+	for c := 0; c < n; c++ {
+		w[c] = ys[off+c] - s.Nu[c] - b[c%J]
+	}
+}
+
+// withinQuad returns -1/2 sum_t zeta_t' Sigma_t^{-1} zeta_t over all persons
+// for latent responses ys: the part of the log density of the within paths
+// that depends on ys (the log-determinant terms do not).
+func (s *State) withinQuad(ys, w []float64) float64 {
+	l := s.L
+	J := l.J
+	JJ := J * J
+	z := s.work[5*JJ : 5*JJ+J]
+	total := 0.0
+	for i := 0; i < l.N; i++ {
+		s.fillW(w, i, ys)
+		for t := 0; t < l.Panel.Len[i]; t++ {
+			wt := w[t*J : t*J+J]
+			if t == 0 {
+				copy(z, wt)
+			} else {
+				a := s.A[t*JJ : (t+1)*JJ]
+				wp := w[(t-1)*J : t*J]
+				for r := 0; r < J; r++ {
+					v := wt[r]
+					for c := 0; c < J; c++ {
+						v -= a[r*J+c] * wp[c]
+					}
+					z[r] = v
+				}
+			}
+			total += dense.Quad(s.SigInv[t*JJ:(t+1)*JJ], z, J)
+		}
+	}
+	return -0.5 * total
+}
+
+// setPaths writes the J x J block a into A at every occasion it applies to.
+func (s *State) setPaths(t int, a []float64) {
+	JJ := s.L.J * s.L.J
+	if s.L.PathsFree {
+		copy(s.A[t*JJ:(t+1)*JJ], a)
+		return
+	}
+	for u := 1; u < s.L.T; u++ {
+		copy(s.A[u*JJ:(u+1)*JJ], a)
+	}
+}
+
+var _ = model.Binary
