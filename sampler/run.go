@@ -49,7 +49,7 @@ func Blocks(l *Layout, update model.ThresholdUpdate) []Block {
 		bs = append(bs, NewThresholdBlock(l, update))
 	}
 	if l.RI {
-		bs = append(bs, NewInterceptBlock(l))
+		bs = append(bs, NewInterceptBlock(l), NewLocationBlock(l))
 	}
 	if l.NMean > 0 {
 		bs = append(bs, NewMeanBlock(l))

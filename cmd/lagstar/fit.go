@@ -1,0 +1,165 @@
+package main
+
+import (
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+	"sync"
+	"time"
+
+	"github.com/lagstar/lagstar/fit"
+	"github.com/lagstar/lagstar/report"
+	"github.com/schollz/progressbar/v3"
+	"github.com/spf13/cobra"
+)
+
+type fitOptions struct {
+	out                   string
+	chains, warmup, draws int
+	seed                  uint64
+	level                 float64
+	format                string
+	quiet                 bool
+}
+
+func newFitCmd(stdout, stderr io.Writer) *cobra.Command {
+	o := &fitOptions{}
+	cmd := &cobra.Command{
+		Use:   "fit MODEL.yaml",
+		Short: "Fit the model described in a model file",
+		Long: `fit reads the model file and the CSV it names, checks both, samples the
+chains and writes summary.json, draws.csv and run.json into the output
+folder. Flags override the model file's sampler settings.`,
+		Example: "  lagstar fit diary.yaml --out diary-fit --seed 7",
+		Args:    cobra.ExactArgs(1),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			if err := o.validate(); err != nil {
+				return err
+			}
+			out := o.out
+			if out == "" {
+				base := strings.TrimSuffix(filepath.Base(args[0]), filepath.Ext(args[0]))
+				out = base + "-fit"
+			}
+			fo := fit.Options{ModelPath: args[0], OutDir: out, Chains: o.chains, Warmup: o.warmup, Draws: o.draws,
+				Seed: o.seed, SeedSet: cmd.Flags().Changed("seed"), Level: o.level}
+			return runFit(cmd, fo, o, stdout, stderr)
+		},
+	}
+	o.bind(cmd)
+	cmd.Flags().StringVar(&o.out, "out", "", "output folder (default: the model file's name with -fit)")
+	return cmd
+}
+
+func (o *fitOptions) bind(cmd *cobra.Command) {
+	f := cmd.Flags()
+	f.IntVar(&o.chains, "chains", 0, "number of chains (default from the model file, else 4)")
+	f.IntVar(&o.warmup, "warmup", 0, "warm-up sweeps per chain (default from the model file, else 1000)")
+	f.IntVar(&o.draws, "draws", 0, "kept draws per chain (default from the model file, else 1000)")
+	f.Uint64Var(&o.seed, "seed", 0, "random seed (default from the model file, else chosen and reported)")
+	f.Float64Var(&o.level, "level", 0.95, "level of the central posterior intervals")
+	f.StringVar(&o.format, "format", "text", "what to print: text (table) or json (summary)")
+	f.BoolVar(&o.quiet, "quiet", false, "print no progress")
+}
+
+func (o *fitOptions) validate() error {
+	switch {
+	case o.chains < 0 || o.chains > 64:
+		return &usageError{fmt.Errorf("--chains: expected 1 to 64, got %d", o.chains)}
+	case o.warmup < 0:
+		return &usageError{fmt.Errorf("--warmup: expected a whole number >= 0, got %d", o.warmup)}
+	case o.draws < 0:
+		return &usageError{fmt.Errorf("--draws: expected a whole number >= 1, got %d", o.draws)}
+	case !(o.level > 0 && o.level < 1):
+		return &usageError{fmt.Errorf("--level: expected a number between 0 and 1, got %g", o.level)}
+	case o.format != "text" && o.format != "json":
+		return &usageError{fmt.Errorf("--format: expected text or json, got %q", o.format)}
+	}
+	return nil
+}
+
+func runFit(cmd *cobra.Command, fo fit.Options, o *fitOptions, stdout, stderr io.Writer) error {
+	var bar *chainProgress
+	if !o.quiet && isTerminal(stderr) {
+		bar = newChainProgress(stderr)
+		fo.Progress = bar.update
+	}
+	res, err := fit.Fit(cmd.Context(), fo)
+	if bar != nil {
+		bar.finish()
+	}
+	if err != nil {
+		return err
+	}
+	if fo.OutDir != "" && !o.quiet {
+		fmt.Fprintf(stderr, "wrote %s (summary.json, draws.csv, run.json) in %.1f s\n", fo.OutDir, res.Result.Elapsed.Seconds())
+	}
+	if o.format == "json" {
+		b, err := res.Summary.JSON()
+		if err != nil {
+			return err
+		}
+		_, err = stdout.Write(b)
+		return err
+	}
+	return report.WriteTable(stdout, res.Summary)
+}
+
+func isTerminal(w io.Writer) bool {
+	f, ok := w.(*os.File)
+	if !ok {
+		return false
+	}
+	st, err := f.Stat()
+	return err == nil && st.Mode()&os.ModeCharDevice != 0
+}
+
+// chainProgress shows one bar over the sweeps of all chains, with an ETA.
+// It is fed from the chain goroutines.
+type chainProgress struct {
+	mu    sync.Mutex
+	w     io.Writer
+	bar   *progressbar.ProgressBar
+	done  map[int]int
+	total int
+	shown int
+}
+
+func newChainProgress(w io.Writer) *chainProgress {
+	return &chainProgress{w: w, done: map[int]int{}}
+}
+
+func (p *chainProgress) update(chain, done, total int) {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	if _, seen := p.done[chain]; !seen {
+		p.total += total
+		if p.bar == nil {
+			p.bar = progressbar.NewOptions(p.total, progressbar.OptionSetWriter(p.w),
+				progressbar.OptionSetDescription("sampling"), progressbar.OptionShowCount(),
+				progressbar.OptionSetPredictTime(true), progressbar.OptionThrottle(100*time.Millisecond),
+				progressbar.OptionClearOnFinish())
+		} else {
+			p.bar.ChangeMax(p.total)
+		}
+	}
+	p.done[chain] = done
+	sum := 0
+	for _, d := range p.done {
+		sum += d
+	}
+	if sum-p.shown >= max(p.total/200, 1) || sum == p.total {
+		p.bar.Set(sum)
+		p.shown = sum
+	}
+}
+
+func (p *chainProgress) finish() {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	if p.bar != nil {
+		p.bar.Finish()
+	}
+}

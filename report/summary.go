@@ -1,0 +1,212 @@
+package report
+
+import (
+	"encoding/json"
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+
+	"github.com/lagstar/lagstar/diagnostics"
+	"github.com/lagstar/lagstar/model"
+	"github.com/lagstar/lagstar/sampler"
+)
+
+// Program is the program name written into outputs.
+const Program = "lagstar"
+
+// Num is a float64 that encodes NaN and infinities as JSON null.
+type Num float64
+
+// MarshalJSON implements json.Marshaler.
+func (n Num) MarshalJSON() ([]byte, error) {
+	f := float64(n)
+	if math.IsNaN(f) || math.IsInf(f, 0) {
+		return []byte("null"), nil
+	}
+	return []byte(strconv.FormatFloat(f, 'g', 10, 64)), nil
+}
+
+// Entry is the summary of one parameter or derived quantity.
+type Entry struct {
+	Name     string `json:"name"`
+	Kind     string `json:"kind"`
+	Outcome  string `json:"outcome,omitempty"`
+	From     string `json:"from,omitempty"`
+	With     string `json:"with,omitempty"`
+	Occasion *int   `json:"occasion,omitempty"`
+	Index    int    `json:"index,omitempty"`
+	Mean     Num    `json:"mean"`
+	SD       Num    `json:"sd"`
+	Median   Num    `json:"median"`
+	Lower    Num    `json:"lower"`
+	Upper    Num    `json:"upper"`
+	Level    Num    `json:"level"`
+	Rhat     Num    `json:"rhat"`
+	ESSBulk  Num    `json:"ess_bulk"`
+	ESSTail  Num    `json:"ess_tail"`
+	MCSEMean Num    `json:"mcse_mean"`
+	table    bool
+}
+
+// OutcomeInfo describes one outcome in the summary.
+type OutcomeInfo struct {
+	Name       string   `json:"name"`
+	Type       string   `json:"type"`
+	Categories []string `json:"categories,omitempty"`
+}
+
+// ModelInfo describes the fitted model and data.
+type ModelInfo struct {
+	File                string        `json:"file"`
+	DataFile            string        `json:"data_file"`
+	Persons             int           `json:"persons"`
+	Rows                int           `json:"rows"`
+	Occasions           []int         `json:"occasions"`
+	Outcomes            []OutcomeInfo `json:"outcomes"`
+	RandomIntercepts    bool          `json:"random_intercepts"`
+	Lags                string        `json:"lags"`
+	ResidualCorrelation bool          `json:"residual_correlation"`
+	PathsOverTime       string        `json:"paths_over_time"`
+	FirstOccasion       string        `json:"first_occasion"`
+	MeansOverTime       string        `json:"means_over_time"`
+	Priors              []string      `json:"priors"`
+	Chains              int           `json:"chains"`
+	Warmup              int           `json:"warmup"`
+	Draws               int           `json:"draws"`
+	ThresholdUpdate     string        `json:"threshold_update"`
+	Notes               []string      `json:"notes,omitempty"`
+}
+
+// Summary is the content of summary.json.
+type Summary struct {
+	Program    string    `json:"program"`
+	Version    string    `json:"version"`
+	Seed       uint64    `json:"seed"`
+	Complete   bool      `json:"complete"`
+	Model      ModelInfo `json:"model"`
+	Parameters []Entry   `json:"parameters"`
+	Derived    []Entry   `json:"derived"`
+	Warnings   []string  `json:"warnings"`
+}
+
+// Thresholds of the convergence warnings (Vehtari et al. 2021, §4).
+const (
+	RhatLimit = 1.01
+	ESSLimit  = 400
+)
+
+// Build summarizes a run at the given central-interval level.
+func Build(res *sampler.Result, level float64, version string) *Summary {
+	l := res.Layout
+	sp := l.Spec
+	s := &Summary{Program: Program, Version: version, Seed: res.Options.Seed, Complete: !res.Incomplete, Warnings: []string{}}
+	mi := ModelInfo{File: sp.Path, DataFile: l.Panel.File, Persons: l.N, Rows: l.Panel.Rows, Occasions: l.Panel.Occasions,
+		RandomIntercepts: l.RI, Lags: string(l.Lags), ResidualCorrelation: l.ResCorr,
+		PathsOverTime: pick(l.PathsFree, "free", "equal"), FirstOccasion: pick(sp.Within.StationaryStart, "stationary", "free"),
+		MeansOverTime: pick(l.MeansFree, "free", "equal"), Priors: l.Priors.Describe(l.J),
+		Chains: res.Options.Chains, Warmup: res.Options.Warmup, Draws: res.Options.Draws,
+		ThresholdUpdate: string(res.Options.ThresholdUpdate), Notes: l.Panel.Notes}
+	for _, o := range l.Panel.Outcomes {
+		mi.Outcomes = append(mi.Outcomes, OutcomeInfo{Name: o.Name, Type: string(o.Type), Categories: o.Codes})
+	}
+	s.Model = mi
+	s.Parameters = entries(res.Params, res.Draws, res.Kept, level)
+	s.Derived = entries(res.Derived, res.DerivedDraws, res.Kept, level)
+	if res.Incomplete {
+		s.Warnings = append(s.Warnings, fmt.Sprintf("the run was interrupted: chains kept %v of %d draws; this summary is incomplete", res.Kept, res.Options.Draws))
+	}
+	s.Warnings = append(s.Warnings, convergenceWarnings(append(append([]Entry{}, s.Parameters...), tableOnly(s.Derived)...))...)
+	for _, n := range l.Panel.Notes {
+		s.Warnings = append(s.Warnings, "data: "+n)
+	}
+	return s
+}
+
+func pick(c bool, a, b string) string {
+	if c {
+		return a
+	}
+	return b
+}
+
+func tableOnly(es []Entry) []Entry {
+	var out []Entry
+	for _, e := range es {
+		if e.table {
+			out = append(out, e)
+		}
+	}
+	return out
+}
+
+func entries(ps []sampler.Param, draws [][]float64, kept []int, level float64) []Entry {
+	out := make([]Entry, len(ps))
+	n := len(ps)
+	minKept := kept[0]
+	for _, k := range kept {
+		minKept = min(minKept, k)
+	}
+	for p, par := range ps {
+		e := Entry{Name: par.Name, Kind: par.Kind, Outcome: par.Outcome, From: par.From, With: par.With,
+			Occasion: par.Occasion, Index: par.Index, table: par.Table}
+		if minKept > 0 {
+			chains := make([][]float64, len(draws))
+			for c := range draws {
+				chains[c] = make([]float64, minKept)
+				for d := 0; d < minKept; d++ {
+					chains[c][d] = draws[c][d*n+p]
+				}
+			}
+			sm := diagnostics.Summarize(chains, level)
+			e.Mean, e.SD, e.Median, e.Lower, e.Upper = Num(sm.Mean), Num(sm.SD), Num(sm.Median), Num(sm.Lower), Num(sm.Upper)
+			e.Rhat, e.ESSBulk, e.ESSTail, e.MCSEMean = Num(sm.Rhat), Num(sm.ESSBulk), Num(sm.ESSTail), Num(sm.MCSEMean)
+		} else {
+			nan := Num(math.NaN())
+			e.Mean, e.SD, e.Median, e.Lower, e.Upper, e.Rhat, e.ESSBulk, e.ESSTail, e.MCSEMean = nan, nan, nan, nan, nan, nan, nan, nan, nan
+		}
+		e.Level = Num(level)
+		out[p] = e
+	}
+	return out
+}
+
+func convergenceWarnings(es []Entry) []string {
+	var rh, ess []string
+	for _, e := range es {
+		if r := float64(e.Rhat); r > RhatLimit {
+			rh = append(rh, fmt.Sprintf("%s (%.3f)", e.Name, r))
+		}
+		b, t := float64(e.ESSBulk), float64(e.ESSTail)
+		if b < ESSLimit || t < ESSLimit {
+			ess = append(ess, fmt.Sprintf("%s (bulk %.0f, tail %.0f)", e.Name, b, t))
+		}
+	}
+	var w []string
+	if len(rh) > 0 {
+		w = append(w, fmt.Sprintf("R-hat above %.2f for %s: the chains disagree; run longer (raise --warmup and --draws), and if it persists simplify the model or check identification", RhatLimit, clipList(rh)))
+	}
+	if len(ess) > 0 {
+		w = append(w, fmt.Sprintf("effective sample size below %d for %s: intervals and means are not yet reliable; raise --draws (and --warmup)", ESSLimit, clipList(ess)))
+	}
+	return w
+}
+
+func clipList(xs []string) string {
+	const most = 6
+	if len(xs) <= most {
+		return strings.Join(xs, ", ")
+	}
+	return strings.Join(xs[:most], ", ") + fmt.Sprintf(" and %d more", len(xs)-most)
+}
+
+// WriteJSON writes the summary as indented JSON.
+func (s *Summary) JSON() ([]byte, error) {
+	b, err := json.MarshalIndent(s, "", "  ")
+	if err != nil {
+		return nil, err
+	}
+	return append(b, '\n'), nil
+}
+
+var _ = model.Binary

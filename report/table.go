@@ -1,0 +1,95 @@
+package report
+
+import (
+	"fmt"
+	"io"
+	"math"
+	"strings"
+)
+
+// tableGroups orders the terminal table.
+var tableGroups = []struct {
+	title string
+	kinds []string
+}{
+	{"Measurement (latent-response scale)", []string{"threshold", "mean"}},
+	{"Between persons (random intercepts)", []string{"ri_variance", "ri_correlation"}},
+	{"Within persons", []string{"autoregression", "crosslag", "innovation_variance", "innovation_correlation", "initial_variance", "initial_correlation"}},
+	{"Derived", []string{"std_autoregression", "std_crosslag", "icc"}},
+}
+
+// Caution is printed under every table and in the README.
+const Caution = "Cross-lagged paths are associations under the model's assumptions, not proof of causation; lagstar gives no clinical advice."
+
+// WriteTable writes the grouped summary table, the warnings and the caution.
+func WriteTable(w io.Writer, s *Summary) error {
+	all := append(append([]Entry{}, s.Parameters...), tableOnly(s.Derived)...)
+	width := len("parameter")
+	for _, e := range all {
+		width = max(width, len(e.Name))
+	}
+	level := 0.95
+	if len(all) > 0 {
+		level = float64(all[0].Level)
+	}
+	lo := fmt.Sprintf("%.3g%%", 100*(1-level)/2)
+	hi := fmt.Sprintf("%.3g%%", 100*(1-(1-level)/2))
+	var b strings.Builder
+	status := "complete"
+	if !s.Complete {
+		status = "INCOMPLETE (interrupted)"
+	}
+	fmt.Fprintf(&b, "%s %s: %d persons, %d occasions, %d outcomes; %d chains x %d draws (seed %d), run %s\n",
+		s.Program, s.Version, s.Model.Persons, len(s.Model.Occasions), len(s.Model.Outcomes), s.Model.Chains, s.Model.Draws, s.Seed, status)
+	head := fmt.Sprintf("  %-*s %9s %8s %9s %9s %7s %8s %8s\n", width, "parameter", "mean", "sd", lo, hi, "R-hat", "ESS-bulk", "ESS-tail")
+	for _, g := range tableGroups {
+		var rows []Entry
+		for _, e := range all {
+			for _, k := range g.kinds {
+				if e.Kind == k {
+					rows = append(rows, e)
+				}
+			}
+		}
+		if len(rows) == 0 {
+			continue
+		}
+		fmt.Fprintf(&b, "\n%s\n%s", g.title, head)
+		for _, e := range rows {
+			fmt.Fprintf(&b, "  %-*s %9s %8s %9s %9s %7s %8s %8s\n", width, e.Name, f3(e.Mean), f3(e.SD), f3(e.Lower), f3(e.Upper),
+				fr(e.Rhat), f0(e.ESSBulk), f0(e.ESSTail))
+		}
+	}
+	if len(s.Warnings) > 0 {
+		b.WriteString("\nWarnings\n")
+		for _, w := range s.Warnings {
+			fmt.Fprintf(&b, "  - %s\n", w)
+		}
+	}
+	fmt.Fprintf(&b, "\n%s\n", Caution)
+	_, err := io.WriteString(w, b.String())
+	return err
+}
+
+func bad(n Num) bool { return math.IsNaN(float64(n)) || math.IsInf(float64(n), 0) }
+
+func f3(n Num) string {
+	if bad(n) {
+		return "-"
+	}
+	return fmt.Sprintf("%.3f", float64(n))
+}
+
+func fr(n Num) string {
+	if bad(n) {
+		return "-"
+	}
+	return fmt.Sprintf("%.3f", float64(n))
+}
+
+func f0(n Num) string {
+	if bad(n) {
+		return "-"
+	}
+	return fmt.Sprintf("%.0f", float64(n))
+}
