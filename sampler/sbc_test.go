@@ -97,6 +97,28 @@ means: {over_time: equal}
 				"innovation_correlation[a,b]": r, "initial_correlation[a,b]": r1}
 		},
 	},
+	{
+		name: "ordinal K=3 random-intercept AR(1), stationary start",
+		yaml: `
+data: {file: x.csv, person: person, occasion: occasion}
+outcomes: [{name: y, type: ordinal, categories: 3, lowest: 0}]
+within: {lags: own, first_occasion: stationary}
+means: {over_time: equal}
+`,
+		persons: 40, times: 8,
+		draw: func(rng *rand.Rand, pr priors.Set) (Truth, map[string]float64) {
+			tau := drawThresholds(rng, pr.ThresholdSD, 2)
+			psi := drawPsi(rng, pr, 1)
+			a := pr.PathSD * rng.NormFloat64()
+			for math.Abs(a) >= 1 {
+				a = pr.PathSD * rng.NormFloat64()
+			}
+			tr := Truth{Names: []string{"y"}, Types: []model.OutcomeType{model.Ordinal}, Tau: [][]float64{tau},
+				Psi: psi, A: []float64{a}, Sigma: []float64{1}, Missing: 0.05}
+			return tr, map[string]float64{"threshold[y,1]": tau[0], "threshold[y,2]": tau[1],
+				"ri_variance[y]": psi[0], "autoregression[y]": a}
+		},
+	},
 }
 
 // sbcRanks runs reps replications and returns, per parameter, the ranks of
