@@ -146,7 +146,7 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 	sp.Within.Lags = LagsCross
 	sp.Means.Free = true
 	sp.Sampler = SamplerSpec{Chains: 4, Warmup: 1000, Draws: 1000, ThresholdUpdate: ThresholdJoint}
-	r := &reader{file: path, p: p}
+	r := &reader{file: path, p: p, schema: schema}
 	top := r.mapping(root, "")
 	if top == nil {
 		return nil, p.err()
@@ -271,8 +271,9 @@ func (sp *Spec) checkOutcomes(p *problems, line int) {
 
 // reader walks the YAML tree, checking keys and value types.
 type reader struct {
-	file string
-	p    *problems
+	file   string
+	p      *problems
+	schema map[string][]string
 }
 
 func (r *reader) mapping(n *yaml.Node, section string) map[string]*yaml.Node {
@@ -284,7 +285,7 @@ func (r *reader) mapping(n *yaml.Node, section string) map[string]*yaml.Node {
 		r.p.addf(r.file, n.Line, "%s: expected a set of keys, got %q", where, n.Value)
 		return nil
 	}
-	allowed := schema[section]
+	allowed := r.schema[section]
 	out := map[string]*yaml.Node{}
 	for i := 0; i+1 < len(n.Content); i += 2 {
 		k, v := n.Content[i], n.Content[i+1]

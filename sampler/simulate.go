@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"encoding/csv"
 	"fmt"
-	"math"
 	"math/rand/v2"
 	"strconv"
 
@@ -27,6 +26,11 @@ type Truth struct {
 	Sigma1 []float64   // J x J first-occasion covariance; nil: stationary
 	// Missing is the probability that a cell is missing.
 	Missing float64
+	// PersonCol and OccasionCol name the index columns ("person" and
+	// "occasion" when empty); Codes[j], when not nil, names outcome j's
+	// categories (else they are written 0..K-1).
+	PersonCol, OccasionCol string
+	Codes                  [][]string
 }
 
 // Simulate draws a long-format CSV panel (columns person, occasion, then one
@@ -76,7 +80,14 @@ func Simulate(tr Truth, n, t int, rng *rand.Rand) ([]byte, error) {
 	}
 	var buf bytes.Buffer
 	wr := csv.NewWriter(&buf)
-	wr.Write(append([]string{"person", "occasion"}, tr.Names...))
+	pc, oc := tr.PersonCol, tr.OccasionCol
+	if pc == "" {
+		pc = "person"
+	}
+	if oc == "" {
+		oc = "occasion"
+	}
+	wr.Write(append([]string{pc, oc}, tr.Names...))
 	b := make([]float64, J)
 	w := make([]float64, J)
 	prev := make([]float64, J)
@@ -118,7 +129,11 @@ func Simulate(tr Truth, n, t int, rng *rand.Rand) ([]byte, error) {
 				for k < len(tr.Tau[j]) && y > tr.Tau[j][k] {
 					k++
 				}
-				rec = append(rec, strconv.Itoa(k))
+				if tr.Codes != nil && tr.Codes[j] != nil {
+					rec = append(rec, tr.Codes[j][k])
+				} else {
+					rec = append(rec, strconv.Itoa(k))
+				}
 			}
 			wr.Write(rec)
 		}
@@ -126,5 +141,3 @@ func Simulate(tr Truth, n, t int, rng *rand.Rand) ([]byte, error) {
 	wr.Flush()
 	return buf.Bytes(), wr.Error()
 }
-
-var _ = math.Inf

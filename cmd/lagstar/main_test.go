@@ -1,0 +1,219 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+const goodModel = `data:
+  file: data.csv
+  person: id
+  occasion: wave
+outcomes:
+  - name: mood
+    type: ordinal
+    categories: 3
+    lowest: 1
+  - name: pain
+    type: binary
+within:
+  lags: cross
+means:
+  over_time: equal
+sampler:
+  chains: 2
+  warmup: 20
+  draws: 20
+  seed: 5
+`
+
+func goodData() string {
+	var b strings.Builder
+	b.WriteString("id,wave,mood,pain\n")
+	vals := []string{"1", "2", "3"}
+	for p := 0; p < 12; p++ {
+		for w := 1; w <= 4; w++ {
+			b.WriteString(strings.Join([]string{"p" + string(rune('a'+p)), string(rune('0' + w)), vals[(p+w)%3], string(rune('0' + (p*w)%2))}, ","))
+			b.WriteString("\n")
+		}
+	}
+	return b.String()
+}
+
+// setup writes a model file and data file into a fresh folder.
+func setup(t *testing.T, modelText, dataText string) (dir, modelPath string) {
+	t.Helper()
+	dir = t.TempDir()
+	modelPath = filepath.Join(dir, "model.yaml")
+	if err := os.WriteFile(modelPath, []byte(modelText), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if dataText != "" {
+		if err := os.WriteFile(filepath.Join(dir, "data.csv"), []byte(dataText), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	return dir, modelPath
+}
+
+func runCLI(args ...string) (int, string, string) {
+	var out, errb bytes.Buffer
+	code := run(context.Background(), args, &out, &errb)
+	return code, out.String(), errb.String()
+}
+
+func TestFitWritesOutputs(t *testing.T) {
+	dir, mp := setup(t, goodModel, goodData())
+	out := filepath.Join(dir, "run")
+	code, stdout, stderr := runCLI("fit", mp, "--out", out, "--quiet")
+	if code != 0 {
+		t.Fatalf("exit %d, stderr: %s", code, stderr)
+	}
+	for _, want := range []string{"Measurement", "Between persons", "Within persons", "Derived", "threshold[mood,1]", "not proof of causation"} {
+		if !strings.Contains(stdout, want) {
+			t.Errorf("table lacks %q", want)
+		}
+	}
+	raw, err := os.ReadFile(filepath.Join(out, "summary.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var s struct {
+		Program    string
+		Seed       uint64
+		Complete   bool
+		Parameters []struct {
+			Name, Kind string
+			Rhat       *float64
+		}
+	}
+	if err := json.Unmarshal(raw, &s); err != nil {
+		t.Fatal(err)
+	}
+	if s.Program != "lagstar" || s.Seed != 5 || !s.Complete || len(s.Parameters) == 0 {
+		t.Errorf("summary.json: program %q seed %d complete %v, %d parameters", s.Program, s.Seed, s.Complete, len(s.Parameters))
+	}
+	for _, f := range []string{"draws.csv", "run.json"} {
+		if _, err := os.Stat(filepath.Join(out, f)); err != nil {
+			t.Errorf("missing %s: %v", f, err)
+		}
+	}
+	code, stdout, _ = runCLI("fit", mp, "--out", out, "--quiet", "--format", "json", "--draws", "10")
+	if code != 0 || !strings.HasPrefix(stdout, "{") {
+		t.Errorf("--format json: exit %d, output starts %q", code, stdout[:min(20, len(stdout))])
+	}
+}
+
+// TestBadInput checks that each bad input exits with status 2, names the
+// file and the row or key, and leaves no summary.json.
+func TestBadInput(t *testing.T) {
+	data := goodData()
+	cases := []struct {
+		name       string
+		model      string
+		data       string
+		args       []string
+		wantInMsgs []string
+	}{
+		{"category outside range", goodModel, strings.Replace(data, "pa,1,2,", "pa,1,7,", 1), nil,
+			[]string{"data.csv:2:", `outcome "mood"`, "category 7 outside 1..3"}},
+		{"binary with three values", goodModel, strings.Replace(data, "pa,2,3,0", "pa,2,3,2", 1), nil,
+			[]string{"data.csv", `outcome "pain" is binary`, "3 distinct values"}},
+		{"duplicate person-occasion", goodModel, data + "pa,1,2,1\n", nil,
+			[]string{"data.csv:50:", `person "pa" has occasion 1 twice`, "line 2"}},
+		{"missing column", goodModel, strings.Replace(data, "id,wave,mood,pain", "id,wave,mood,pian", 1), nil,
+			[]string{"data.csv:1:", `missing column "pain"`, `did you mean "pian"`}},
+		{"non-integer occasion", goodModel, strings.Replace(data, "pb,2,", "pb,2.5,", 1), nil,
+			[]string{"data.csv:7:", `occasion "2.5" is not a whole number`}},
+		{"no rows", goodModel, "id,wave,mood,pain\n", nil,
+			[]string{"data.csv", "no data rows"}},
+		{"misspelled key", strings.Replace(goodModel, "lags: cross", "lag: cross", 1), data, nil,
+			[]string{"model.yaml:13:", `unknown key in within: "lag"`, `did you mean "lags"`}},
+		{"unknown top-level key", goodModel + "priorz: {}\n", data, nil,
+			[]string{"model.yaml:21:", `"priorz"`}},
+		{"data file missing", strings.Replace(goodModel, "data.csv", "nothere.csv", 1), data, nil,
+			[]string{"model.yaml", "nothere.csv does not exist"}},
+		{"model file missing", "", data, []string{"fit", "nomodel.yaml"},
+			[]string{"nomodel.yaml", "does not exist"}},
+		{"unidentified: stationary with free paths", strings.Replace(goodModel, "lags: cross", "lags: cross\n  over_time: free\n  first_occasion: stationary", 1), data, nil,
+			[]string{"model.yaml", "first_occasion: stationary needs within.over_time: equal"}},
+		{"unidentified: cross-lags with one outcome", strings.Replace(goodModel, "  - name: pain\n    type: binary\n", "", 1), data, nil,
+			[]string{"within.lags: cross needs at least two outcomes"}},
+		{"bad flag value", goodModel, data, []string{"--format", "xml"},
+			[]string{"--format", "xml"}},
+		{"bad level", goodModel, data, []string{"--level", "1.5"},
+			[]string{"--level"}},
+		{"unknown flag", goodModel, data, []string{"--chain", "3"},
+			[]string{"unknown flag: --chain"}},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			dir, mp := setup(t, c.model, c.data)
+			out := filepath.Join(dir, "run")
+			args := append([]string{"fit", mp, "--out", out, "--quiet"}, c.args...)
+			if c.args != nil && c.args[0] == "fit" {
+				args = append(c.args, "--out", out)
+				t.Chdir(dir)
+			}
+			code, _, stderr := runCLI(args...)
+			if code != 2 {
+				t.Fatalf("exit status %d, want 2; stderr: %s", code, stderr)
+			}
+			for _, w := range c.wantInMsgs {
+				if !strings.Contains(stderr, w) {
+					t.Errorf("message lacks %q:\n%s", w, stderr)
+				}
+			}
+			if _, err := os.Stat(filepath.Join(out, "summary.json")); err == nil {
+				t.Errorf("summary.json was written for bad input")
+			}
+		})
+	}
+}
+
+const truthText = `thresholds: {mood: [-0.5, 0.6], pain: [0.3]}
+random_intercepts:
+  variances: {mood: 0.8, pain: 0.6}
+  correlations: [{between: [mood, pain], value: 0.3}]
+paths:
+  - {from: mood, to: mood, value: 0.4}
+  - {from: pain, to: pain, value: 0.3}
+  - {from: mood, to: pain, value: 0.2}
+innovations:
+  correlations: [{between: [mood, pain], value: 0.25}]
+missing: 0.05
+`
+
+// TestSimulateThenFit generates data with simulate and fits it with fit.
+func TestSimulateThenFit(t *testing.T) {
+	dir, mp := setup(t, goodModel, "")
+	truth := filepath.Join(dir, "truth.yaml")
+	if err := os.WriteFile(truth, []byte(truthText), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	code, _, stderr := runCLI("simulate", mp, "--truth", truth, "--persons", "50", "--occasions", "5", "--out", filepath.Join(dir, "data.csv"), "--seed", "4")
+	if code != 0 {
+		t.Fatalf("simulate: exit %d: %s", code, stderr)
+	}
+	raw, _ := os.ReadFile(filepath.Join(dir, "data.csv"))
+	if !strings.HasPrefix(string(raw), "id,wave,mood,pain\n") || strings.Count(string(raw), "\n") != 251 {
+		t.Fatalf("unexpected simulated file: %q...", string(raw[:min(60, len(raw))]))
+	}
+	code, _, stderr = runCLI("fit", mp, "--out", filepath.Join(dir, "run"), "--quiet")
+	if code != 0 {
+		t.Fatalf("fit of simulated data: exit %d: %s", code, stderr)
+	}
+	bad := strings.Replace(truthText, "pain: [0.3]", "pian: [0.3]", 1)
+	if err := os.WriteFile(truth, []byte(bad), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	code, _, stderr = runCLI("simulate", mp, "--truth", truth, "--out", filepath.Join(dir, "x.csv"))
+	if code != 2 || !strings.Contains(stderr, `"pian" is not an outcome`) {
+		t.Errorf("bad truth file: exit %d, stderr %s", code, stderr)
+	}
+}

@@ -1,0 +1,186 @@
+package fit
+
+import (
+	"errors"
+	"math"
+	"math/rand/v2"
+	"strconv"
+
+	"github.com/lagstar/lagstar/internal/dense"
+	"github.com/lagstar/lagstar/model"
+	"github.com/lagstar/lagstar/report"
+	"github.com/lagstar/lagstar/sampler"
+)
+
+// SimulateOptions says what data to generate.
+type SimulateOptions struct {
+	ModelPath, TruthPath string
+	Persons, Occasions   int
+	Out                  string
+	Seed                 uint64
+}
+
+// Simulate generates a long-format CSV from the model file's structure and
+// the truth file's values and writes it to o.Out. It returns the CSV.
+func Simulate(o SimulateOptions) ([]byte, error) {
+	if o.Persons < 1 {
+		return nil, model.Inputf("", 0, "--persons: expected at least 1, got %d", o.Persons)
+	}
+	if o.Occasions < 1 {
+		return nil, model.Inputf("", 0, "--occasions: expected at least 1, got %d", o.Occasions)
+	}
+	sp, err := model.ReadSpec(o.ModelPath)
+	if err != nil {
+		return nil, err
+	}
+	ts, err := model.ReadTruth(o.TruthPath, sp)
+	if err != nil {
+		return nil, err
+	}
+	tr, err := truthFrom(sp, ts, o.TruthPath, o.Occasions)
+	if err != nil {
+		return nil, err
+	}
+	csv, err := sampler.Simulate(tr, o.Persons, o.Occasions, rand.New(rand.NewPCG(o.Seed, 0x73696d)))
+	if err != nil {
+		return nil, model.Inputf(o.TruthPath, 0, "%v", err)
+	}
+	if o.Out != "" {
+		if err := report.WriteAtomic(o.Out, csv); err != nil {
+			return nil, err
+		}
+	}
+	return csv, nil
+}
+
+// truthFrom assembles the simulator's matrices from a truth file.
+func truthFrom(sp *model.Spec, ts *model.TruthSpec, file string, T int) (sampler.Truth, error) {
+	J := len(sp.Outcomes)
+	idx := map[string]int{}
+	tr := sampler.Truth{PersonCol: sp.Data.Person, OccasionCol: sp.Data.Occasion, Missing: ts.Missing,
+		Tau: make([][]float64, J), Codes: make([][]string, J), Sigma: make([]float64, J*J)}
+	var errs []error
+	bad := func(format string, args ...any) { errs = append(errs, model.Inputf(file, 0, format, args...)) }
+	for j, o := range sp.Outcomes {
+		idx[o.Name] = j
+		tr.Names = append(tr.Names, o.Name)
+		tr.Types = append(tr.Types, o.Type)
+		if o.Type.Categorical() {
+			tr.Tau[j] = ts.Thresholds[o.Name]
+			K := len(tr.Tau[j]) + 1
+			if o.Labels != nil {
+				tr.Codes[j] = o.Labels
+			} else {
+				lo := 0
+				if o.Lowest != nil {
+					lo = *o.Lowest
+				}
+				for k := 0; k < K; k++ {
+					tr.Codes[j] = append(tr.Codes[j], strconv.Itoa(lo+k))
+				}
+			}
+		}
+	}
+	// Means.
+	tr.Nu = make([]float64, T*J)
+	for name, v := range ts.Means {
+		j := idx[name]
+		switch len(v) {
+		case 1:
+			for t := 0; t < T; t++ {
+				tr.Nu[t*J+j] = v[0]
+			}
+		case T:
+			for t := 0; t < T; t++ {
+				tr.Nu[t*J+j] = v[t]
+			}
+		default:
+			bad("means.%s: expected one value or one per occasion (%d), got %d", name, T, len(v))
+			continue
+		}
+		if sp.Outcomes[j].Type.Categorical() && tr.Nu[j] != 0 {
+			bad("means.%s: the first occasion's mean of a categorical outcome is 0 (its thresholds carry the location)", name)
+		}
+	}
+	// Covariances: categorical variances are fixed at 1 (identification).
+	fill := func(dst []float64, vars map[string]float64, pairs []model.Pair, what string, corrAllowed bool) {
+		for j, o := range sp.Outcomes {
+			v, ok := vars[o.Name]
+			switch {
+			case o.Type.Categorical() && ok:
+				bad("%s.variances.%s: the variance of a categorical outcome's latent response is fixed at 1", what, o.Name)
+			case o.Type.Categorical():
+				v = 1
+			case !ok:
+				bad("%s.variances: continuous outcome %q needs a variance", what, o.Name)
+				v = 1
+			}
+			dst[j*J+j] = v
+		}
+		for _, p := range pairs {
+			if !corrAllowed {
+				bad("%s.correlations: the model file has none (residual_correlation is false or only one outcome)", what)
+				return
+			}
+			a, b := idx[p.A], idx[p.B]
+			c := p.Value * math.Sqrt(dst[a*J+a]*dst[b*J+b])
+			dst[a*J+b], dst[b*J+a] = c, c
+		}
+	}
+	fill(tr.Sigma, ts.InnovVar, ts.InnovCorr, "innovations", sp.Within.ResidualCorrelation)
+	if !sp.Within.StationaryStart {
+		tr.Sigma1 = make([]float64, J*J)
+		init := ts.InitVar
+		if len(init) == 0 {
+			init = ts.InnovVar
+		}
+		fill(tr.Sigma1, init, ts.InitCorr, "first_occasion", sp.Within.ResidualCorrelation)
+	} else if len(ts.InitVar) > 0 || len(ts.InitCorr) > 0 {
+		bad("first_occasion: the model file asks for a stationary first occasion, whose covariance follows from the paths and innovations")
+	}
+	if sp.Between.RandomIntercepts {
+		tr.Psi = make([]float64, J*J)
+		for j, o := range sp.Outcomes {
+			v, ok := ts.RIVar[o.Name]
+			if !ok {
+				bad("random_intercepts.variances: outcome %q needs a variance", o.Name)
+			}
+			tr.Psi[j*J+j] = v
+		}
+		for _, p := range ts.RICorr {
+			a, b := idx[p.A], idx[p.B]
+			c := p.Value * math.Sqrt(tr.Psi[a*J+a]*tr.Psi[b*J+b])
+			tr.Psi[a*J+b], tr.Psi[b*J+a] = c, c
+		}
+	} else if len(ts.RIVar) > 0 {
+		bad("random_intercepts: the model file has between.random_intercepts: false")
+	}
+	tr.A = make([]float64, J*J)
+	for _, p := range ts.Paths {
+		from, to := idx[p.From], idx[p.To]
+		switch {
+		case sp.Within.Lags == model.LagsNone:
+			bad("paths: the model file has within.lags: none")
+		case sp.Within.Lags == model.LagsOwn && from != to:
+			bad("paths: %s -> %s is a cross-lag, but the model file has within.lags: own", p.From, p.To)
+		}
+		tr.A[to*J+from] = p.Value
+	}
+	for _, m := range []struct {
+		name string
+		v    []float64
+	}{{"innovations", tr.Sigma}, {"first_occasion", tr.Sigma1}, {"random_intercepts", tr.Psi}} {
+		if m.v == nil {
+			continue
+		}
+		c := append([]float64(nil), m.v...)
+		if !dense.Cholesky(c, J) {
+			bad("%s: the covariance matrix is not positive definite", m.name)
+		}
+	}
+	if len(errs) > 0 {
+		return tr, errors.Join(errs...)
+	}
+	return tr, nil
+}
+

@@ -1,0 +1,231 @@
+package model
+
+import (
+	"os"
+	"slices"
+	"strconv"
+
+	"go.yaml.in/yaml/v3"
+)
+
+// TruthSpec holds the parameter values of a truth file, used by
+// `lagstar simulate` to generate data from a model file's structure. All
+// values are on the latent-response scale (categorical outcomes) or the
+// outcome's own scale (continuous outcomes).
+type TruthSpec struct {
+	Thresholds map[string][]float64
+	Means      map[string][]float64 // one value, or one per occasion
+	RIVar      map[string]float64
+	RICorr     []Pair
+	Paths      []Path
+	InnovVar   map[string]float64
+	InnovCorr  []Pair
+	InitVar    map[string]float64
+	InitCorr   []Pair
+	Missing    float64
+}
+
+// Pair is a correlation between two outcomes.
+type Pair struct {
+	A, B  string
+	Value float64
+	Line  int
+}
+
+// Path is a carry-over path from outcome From at t-1 to outcome To at t.
+type Path struct {
+	From, To string
+	Value    float64
+	Line     int
+}
+
+var truthSchema = map[string][]string{
+	"":                  {"thresholds", "means", "random_intercepts", "paths", "innovations", "first_occasion", "missing"},
+	"random_intercepts": {"variances", "correlations"},
+	"innovations":       {"variances", "correlations"},
+	"first_occasion":    {"variances", "correlations"},
+	"correlations":      {"between", "value"},
+	"paths":             {"from", "to", "value"},
+}
+
+// ReadTruth reads a truth file and checks it against the model spec sp.
+func ReadTruth(path string, sp *Spec) (*TruthSpec, error) {
+	raw, err := os.ReadFile(path)
+	if err != nil {
+		if os.IsNotExist(err) {
+			return nil, Inputf(path, 0, "truth file does not exist")
+		}
+		return nil, Inputf(path, 0, "cannot read truth file: %v", err)
+	}
+	var doc yaml.Node
+	if err := yaml.Unmarshal(raw, &doc); err != nil {
+		return nil, Inputf(path, 0, "not valid YAML: %v", err)
+	}
+	if len(doc.Content) == 0 {
+		return nil, Inputf(path, 0, "truth file is empty")
+	}
+	p := &problems{}
+	r := &truthReader{reader: reader{file: path, p: p, schema: truthSchema}, sp: sp}
+	ts := &TruthSpec{Thresholds: map[string][]float64{}, Means: map[string][]float64{}, RIVar: map[string]float64{},
+		InnovVar: map[string]float64{}, InitVar: map[string]float64{}}
+	top := r.mapping(doc.Content[0], "")
+	if v, ok := top["thresholds"]; ok {
+		for name, n := range r.outcomeMap(v, "thresholds") {
+			ts.Thresholds[name] = r.floats(n, "thresholds."+name)
+		}
+	}
+	if v, ok := top["means"]; ok {
+		for name, n := range r.outcomeMap(v, "means") {
+			ts.Means[name] = r.floats(n, "means."+name)
+		}
+	}
+	varsCorr := func(key string, vars map[string]float64) []Pair {
+		v, ok := top[key]
+		if !ok {
+			return nil
+		}
+		m := r.mapping(v, key)
+		if n, ok := m["variances"]; ok {
+			for name, x := range r.outcomeMap(n, key+".variances") {
+				f := r.float(x, key+".variances."+name)
+				if !(f > 0) {
+					p.addf(path, x.Line, "%s.variances.%s: expected a positive variance, got %q", key, name, x.Value)
+				}
+				vars[name] = f
+			}
+		}
+		var pairs []Pair
+		if n, ok := m["correlations"]; ok {
+			if n.Kind != yaml.SequenceNode {
+				p.addf(path, n.Line, "%s.correlations: expected a list of {between: [a, b], value: r}", key)
+				return nil
+			}
+			for _, item := range n.Content {
+				im := r.mapping(item, "correlations")
+				pr := Pair{Line: item.Line}
+				if b, ok := im["between"]; ok {
+					names := r.strList(b, key+".correlations.between")
+					if len(names) != 2 {
+						p.addf(path, b.Line, "%s.correlations.between: expected two outcome names", key)
+					} else {
+						pr.A, pr.B = r.outcome(names[0], b.Line, key), r.outcome(names[1], b.Line, key)
+					}
+				}
+				if x, ok := im["value"]; ok {
+					pr.Value = r.float(x, key+".correlations.value")
+					if !(pr.Value > -1 && pr.Value < 1) {
+						p.addf(path, x.Line, "%s.correlations.value: expected a correlation between -1 and 1, got %q", key, x.Value)
+					}
+				}
+				pairs = append(pairs, pr)
+			}
+		}
+		return pairs
+	}
+	ts.RICorr = varsCorr("random_intercepts", ts.RIVar)
+	ts.InnovCorr = varsCorr("innovations", ts.InnovVar)
+	ts.InitCorr = varsCorr("first_occasion", ts.InitVar)
+	if v, ok := top["paths"]; ok {
+		if v.Kind != yaml.SequenceNode {
+			p.addf(path, v.Line, "paths: expected a list of {from: a, to: b, value: x}")
+		} else {
+			for _, item := range v.Content {
+				im := r.mapping(item, "paths")
+				pa := Path{Line: item.Line}
+				if x, ok := im["from"]; ok {
+					pa.From = r.outcome(x.Value, x.Line, "paths.from")
+				}
+				if x, ok := im["to"]; ok {
+					pa.To = r.outcome(x.Value, x.Line, "paths.to")
+				}
+				if x, ok := im["value"]; ok {
+					pa.Value = r.float(x, "paths.value")
+				}
+				ts.Paths = append(ts.Paths, pa)
+			}
+		}
+	}
+	if v, ok := top["missing"]; ok {
+		ts.Missing = r.float(v, "missing")
+		if !(ts.Missing >= 0 && ts.Missing < 1) {
+			p.addf(path, v.Line, "missing: expected a share from 0 up to 1, got %q", v.Value)
+		}
+	}
+	for _, o := range sp.Outcomes {
+		if o.Type.Categorical() {
+			th, ok := ts.Thresholds[o.Name]
+			if !ok {
+				p.addf(path, 0, "thresholds: outcome %q needs its thresholds", o.Name)
+				continue
+			}
+			if o.Type == Binary && len(th) != 1 {
+				p.addf(path, 0, "thresholds.%s: a binary outcome has one threshold, got %d", o.Name, len(th))
+			}
+			if o.Categories != 0 && len(th) != o.Categories-1 {
+				p.addf(path, 0, "thresholds.%s: %d categories need %d thresholds, got %d", o.Name, o.Categories, o.Categories-1, len(th))
+			}
+			if !slices.IsSorted(th) {
+				p.addf(path, 0, "thresholds.%s: thresholds must increase", o.Name)
+			}
+		} else if _, ok := ts.InnovVar[o.Name]; !ok {
+			p.addf(path, 0, "innovations.variances: continuous outcome %q needs its innovation variance", o.Name)
+		}
+	}
+	if err := p.err(); err != nil {
+		return nil, err
+	}
+	return ts, nil
+}
+
+type truthReader struct {
+	reader
+	sp *Spec
+}
+
+// outcomeMap reads a mapping keyed by outcome names.
+func (r *truthReader) outcomeMap(n *yaml.Node, key string) map[string]*yaml.Node {
+	out := map[string]*yaml.Node{}
+	if n.Kind != yaml.MappingNode {
+		r.p.addf(r.file, n.Line, "%s: expected outcome names with values", key)
+		return out
+	}
+	for i := 0; i+1 < len(n.Content); i += 2 {
+		name := r.outcome(n.Content[i].Value, n.Content[i].Line, key)
+		out[name] = n.Content[i+1]
+	}
+	return out
+}
+
+func (r *truthReader) outcome(name string, line int, key string) string {
+	names := make([]string, len(r.sp.Outcomes))
+	for i, o := range r.sp.Outcomes {
+		names[i] = o.Name
+	}
+	if !slices.Contains(names, name) {
+		r.p.addf(r.file, line, "%s: %q is not an outcome of the model file%s", key, name, suggest(name, names))
+	}
+	return name
+}
+
+func (r *truthReader) float(n *yaml.Node, key string) float64 {
+	f, err := strconv.ParseFloat(n.Value, 64)
+	if err != nil || n.Kind != yaml.ScalarNode {
+		r.p.addf(r.file, n.Line, "%s: expected a number, got %q", key, n.Value)
+	}
+	return f
+}
+
+func (r *truthReader) floats(n *yaml.Node, key string) []float64 {
+	if n.Kind == yaml.ScalarNode {
+		return []float64{r.float(n, key)}
+	}
+	if n.Kind != yaml.SequenceNode {
+		r.p.addf(r.file, n.Line, "%s: expected a number or a list of numbers", key)
+		return nil
+	}
+	out := make([]float64, len(n.Content))
+	for i, c := range n.Content {
+		out[i] = r.float(c, key)
+	}
+	return out
+}
