@@ -183,4 +183,3 @@ func truthFrom(sp *model.Spec, ts *model.TruthSpec, file string, T int) (sampler
 	}
 	return tr, nil
 }
-
