@@ -84,8 +84,11 @@ func (lb *LatentBlock) Update(st *State, rng *rand.Rand) error {
 				w[t*J+j] = latentresp.TruncNormal(rng, mean, sd, lo-shift, hi-shift)
 			}
 		}
-		for c := 0; c < Ti*J; c++ {
-			st.Ystar[off+c] = w[c] + st.Nu[c] + b[c%J]
+		for t := 0; t < Ti; t++ {
+			c := t * J
+			for j, bj := range b {
+				st.Ystar[off+c+j] = w[c+j] + st.Nu[c+j] + bj
+			}
 		}
 	}
 	return nil

@@ -251,10 +251,12 @@ func (s *State) fillW(w []float64, i int, ys []float64) {
 	l := s.L
 	J := l.J
 	off := l.Panel.Offset[i]
-	n := l.Panel.Len[i] * J
 	b := s.B[i*J : i*J+J]
-	for c := 0; c < n; c++ {
-		w[c] = ys[off+c] - s.Nu[c] - b[c%J]
+	for t := 0; t < l.Panel.Len[i]; t++ {
+		c := t * J
+		for j, bj := range b {
+			w[c+j] = ys[off+c+j] - s.Nu[c+j] - bj
+		}
 	}
 }
 

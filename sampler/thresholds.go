@@ -37,7 +37,7 @@ type ThresholdBlock struct {
 
 // NewThresholdBlock allocates the block's workspace.
 func NewThresholdBlock(l *Layout, update model.ThresholdUpdate) *ThresholdBlock {
-	tb := &ThresholdBlock{joint: update != model.ThresholdAlbertChib, moves: 3,
+	tb := &ThresholdBlock{joint: update != model.ThresholdAlbertChib, moves: 2,
 		logStep: make([]float64, l.J), tries: make([]int, l.J),
 		ys: make([]float64, len(l.Panel.Y)), w: make([]float64, l.MaxLen*l.J),
 		prop: make([]float64, 12), lo: make([]float64, 12), hi: make([]float64, 12), count: make([]int, 12),
@@ -70,8 +70,12 @@ func (tb *ThresholdBlock) Update(st *State, rng *rand.Rand) error {
 		}
 		tb.albertChib(st, rng, j)
 		if tb.joint {
+			// tb.ys mirrors Ystar outside the cells being proposed; cur is
+			// the within-path log density at the current state.
+			copy(tb.ys, st.Ystar)
+			cur := st.withinQuad(st.Ystar, tb.w)
 			for range tb.moves {
-				tb.groupMove(st, rng, j)
+				cur = tb.groupMove(st, rng, j, cur)
 			}
 		}
 	}
@@ -109,7 +113,9 @@ func (tb *ThresholdBlock) albertChib(st *State, rng *rand.Rand, j int) {
 	}
 }
 
-func (tb *ThresholdBlock) groupMove(st *State, rng *rand.Rand, j int) {
+// groupMove makes one joint move of outcome j's thresholds and latent
+// responses and returns the within-path log density after it.
+func (tb *ThresholdBlock) groupMove(st *State, rng *rand.Rand, j int, cur float64) float64 {
 	l := st.L
 	tau := st.Tau[j]
 	nt := len(tau)
@@ -131,7 +137,6 @@ func (tb *ThresholdBlock) groupMove(st *State, rng *rand.Rand, j int) {
 		for k := range count {
 			count[k] = 0
 		}
-		copy(tb.ys, st.Ystar)
 		for _, c := range tb.cellsOfJ[j] {
 			k := int(st.Y[c])
 			count[k]++
@@ -146,7 +151,8 @@ func (tb *ThresholdBlock) groupMove(st *State, rng *rand.Rand, j int) {
 			}
 			tb.ys[c] = v
 		}
-		logr := st.withinQuad(tb.ys, tb.w) - st.withinQuad(st.Ystar, tb.w)
+		next := st.withinQuad(tb.ys, tb.w)
+		logr := next - cur
 		sd := l.Priors.ThresholdSD
 		for k := 0; k < nt; k++ {
 			logr += priors.LogNormal(prop[k], sd) - priors.LogNormal(tau[k], sd)
@@ -156,9 +162,14 @@ func (tb *ThresholdBlock) groupMove(st *State, rng *rand.Rand, j int) {
 		}
 		if math.Log(rng.Float64()) < logr {
 			accepted = true
+			cur = next
 			copy(tau, prop)
 			for _, c := range tb.cellsOfJ[j] {
 				st.Ystar[c] = tb.ys[c]
+			}
+		} else {
+			for _, c := range tb.cellsOfJ[j] {
+				tb.ys[c] = st.Ystar[c]
 			}
 		}
 	}
@@ -166,6 +177,7 @@ func (tb *ThresholdBlock) groupMove(st *State, rng *rand.Rand, j int) {
 		tb.tries[j]++
 		adapt(&tb.logStep[j], accepted, 0.3, tb.tries[j])
 	}
+	return cur
 }
 
 // adapt moves a log step size toward a target acceptance rate with a
