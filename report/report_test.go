@@ -1,0 +1,113 @@
+package report
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"math"
+	"strings"
+	"testing"
+
+	"github.com/lagstar/lagstar/examples"
+	"github.com/lagstar/lagstar/model"
+	"github.com/lagstar/lagstar/priors"
+	"github.com/lagstar/lagstar/sampler"
+)
+
+func TestNumNaNIsNull(t *testing.T) {
+	b, err := json.Marshal(struct{ A, B, C Num }{Num(math.NaN()), Num(math.Inf(1)), 1.5})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := string(b); got != `{"A":null,"B":null,"C":1.5}` {
+		t.Errorf("got %s", got)
+	}
+}
+
+func shortRun(t *testing.T, draws int) *sampler.Result {
+	t.Helper()
+	m, d := examples.SleepDiary()
+	sp, err := model.ParseSpec("model.yaml", m)
+	if err != nil {
+		t.Fatal(err)
+	}
+	pan, err := model.ParsePanel(sp, "diary.csv", d)
+	if err != nil {
+		t.Fatal(err)
+	}
+	l := sampler.NewLayout(sp, pan, priors.Default())
+	res, err := sampler.Run(context.Background(), l, sampler.Options{Chains: 2, Warmup: 20, Draws: draws, Seed: 3})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return res
+}
+
+// TestSummaryShape checks the fields scripts rely on and that a short run
+// draws convergence warnings that name parameters.
+func TestSummaryShape(t *testing.T) {
+	res := shortRun(t, 30)
+	s := Build(res, 0.9, "test")
+	raw, err := s.JSON()
+	if err != nil {
+		t.Fatal(err)
+	}
+	var generic map[string]any
+	if err := json.Unmarshal(raw, &generic); err != nil {
+		t.Fatal(err)
+	}
+	for _, k := range []string{"program", "version", "seed", "model", "parameters", "derived", "warnings"} {
+		if _, ok := generic[k]; !ok {
+			t.Errorf("summary.json lacks %q", k)
+		}
+	}
+	params := generic["parameters"].([]any)
+	first := params[0].(map[string]any)
+	for _, k := range []string{"name", "kind", "outcome", "index", "mean", "sd", "median", "lower", "upper", "level", "rhat", "ess_bulk", "ess_tail", "mcse_mean"} {
+		if _, ok := first[k]; !ok {
+			t.Errorf("parameter entry lacks %q: %v", k, first)
+		}
+	}
+	if _, ok := first["occasion"]; ok {
+		t.Error("threshold entry should omit occasion")
+	}
+	kinds := map[string]bool{}
+	for _, p := range params {
+		kinds[p.(map[string]any)["kind"].(string)] = true
+	}
+	for _, k := range []string{"threshold", "ri_variance", "ri_correlation", "autoregression", "crosslag", "innovation_correlation"} {
+		if !kinds[k] {
+			t.Errorf("no %s parameter", k)
+		}
+	}
+	if first["level"].(float64) != 0.9 {
+		t.Errorf("level = %v, want 0.9", first["level"])
+	}
+	if len(s.Warnings) == 0 || !strings.Contains(strings.Join(s.Warnings, " "), "effective sample size below 400") {
+		t.Errorf("a 30-draw run should warn about ESS; warnings: %q", s.Warnings)
+	}
+	var buf bytes.Buffer
+	if err := WriteTable(&buf, s); err != nil {
+		t.Fatal(err)
+	}
+	for _, want := range []string{"Measurement", "Between persons", "Within persons", "Derived", "crosslag[rested->headache]", "icc[rested]", "5%", "95%", Caution} {
+		if !strings.Contains(buf.String(), want) {
+			t.Errorf("table lacks %q", want)
+		}
+	}
+}
+
+func TestDrawsCSV(t *testing.T) {
+	res := shortRun(t, 5)
+	b, err := DrawsCSV(res)
+	if err != nil {
+		t.Fatal(err)
+	}
+	lines := strings.Split(strings.TrimSpace(string(b)), "\n")
+	if len(lines) != 1+2*5 {
+		t.Fatalf("draws.csv has %d lines, want 11", len(lines))
+	}
+	if !strings.HasPrefix(lines[0], "chain,draw,threshold[rested,1]") && !strings.HasPrefix(lines[0], `chain,draw,"threshold[rested,1]"`) {
+		t.Errorf("header starts %q", lines[0][:40])
+	}
+}
