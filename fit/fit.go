@@ -33,7 +33,7 @@ type Options struct {
 	Seed                  uint64
 	SeedSet               bool
 	Level                 float64 // central interval level; 0 means 0.95
-	Progress              func(chain, done, total int)
+	Progress              func(chain, chains, done, total int)
 }
 
 // Outcome is what a fit produced.

@@ -17,9 +17,9 @@ type Options struct {
 	Seed                  uint64
 	ThresholdUpdate       model.ThresholdUpdate
 	// Progress, if not nil, is called from the chain goroutines after every
-	// sweep with the chain index and the sweeps done; it must be safe for
-	// concurrent use.
-	Progress func(chain, done, total int)
+	// sweep with the chain index, the number of chains, the sweeps done and
+	// the sweeps per chain; it must be safe for concurrent use.
+	Progress func(chain, chains, done, total int)
 }
 
 // Result holds the kept draws of every chain.
@@ -140,7 +140,7 @@ func runChain(ctx context.Context, l *Layout, opt Options, c int, seed [2]uint64
 			derived = append(derived, dbuf...)
 		}
 		if opt.Progress != nil {
-			opt.Progress(c, sweep+1, total)
+			opt.Progress(c, opt.Chains, sweep+1, total)
 		}
 	}
 	res.Draws[c] = draws

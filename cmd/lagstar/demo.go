@@ -9,7 +9,8 @@ import (
 )
 
 func newDemoCmd(stdout, stderr io.Writer) *cobra.Command {
-	o := &fitOptions{}
+	o := &fitOptions{intro: "Example (invented data): a nurses' sleep diary, 120 nurses x up to 42 evenings;\n" +
+		"rested = how rested they felt (1-5), headache = whether they had one (no/yes).\n"}
 	cmd := &cobra.Command{
 		Use:   "demo",
 		Short: "Fit the bundled, invented sleep-diary example and print the summary",

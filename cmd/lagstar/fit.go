@@ -22,6 +22,7 @@ type fitOptions struct {
 	level                 float64
 	format                string
 	quiet                 bool
+	intro                 string // printed before the table (demo)
 }
 
 func newFitCmd(stdout, stderr io.Writer) *cobra.Command {
@@ -104,6 +105,9 @@ func runFit(cmd *cobra.Command, fo fit.Options, o *fitOptions, stdout, stderr io
 		_, err = stdout.Write(b)
 		return err
 	}
+	if o.intro != "" {
+		fmt.Fprintln(stdout, o.intro)
+	}
 	return report.WriteTable(stdout, res.Summary)
 }
 
@@ -122,35 +126,28 @@ type chainProgress struct {
 	mu    sync.Mutex
 	w     io.Writer
 	bar   *progressbar.ProgressBar
-	done  map[int]int
-	total int
+	done  []int
 	shown int
 }
 
-func newChainProgress(w io.Writer) *chainProgress {
-	return &chainProgress{w: w, done: map[int]int{}}
-}
+func newChainProgress(w io.Writer) *chainProgress { return &chainProgress{w: w} }
 
-func (p *chainProgress) update(chain, done, total int) {
+func (p *chainProgress) update(chain, chains, done, total int) {
 	p.mu.Lock()
 	defer p.mu.Unlock()
-	if _, seen := p.done[chain]; !seen {
-		p.total += total
-		if p.bar == nil {
-			p.bar = progressbar.NewOptions(p.total, progressbar.OptionSetWriter(p.w),
-				progressbar.OptionSetDescription("sampling"), progressbar.OptionShowCount(),
-				progressbar.OptionSetPredictTime(true), progressbar.OptionThrottle(100*time.Millisecond),
-				progressbar.OptionClearOnFinish())
-		} else {
-			p.bar.ChangeMax(p.total)
-		}
+	if p.bar == nil {
+		p.done = make([]int, chains)
+		p.bar = progressbar.NewOptions(chains*total, progressbar.OptionSetWriter(p.w),
+			progressbar.OptionSetDescription(fmt.Sprintf("sampling %d chains", chains)), progressbar.OptionShowCount(),
+			progressbar.OptionSetPredictTime(true), progressbar.OptionThrottle(100*time.Millisecond),
+			progressbar.OptionClearOnFinish())
 	}
 	p.done[chain] = done
 	sum := 0
 	for _, d := range p.done {
 		sum += d
 	}
-	if sum-p.shown >= max(p.total/200, 1) || sum == p.total {
+	if all := chains * total; sum-p.shown >= max(all/200, 1) || sum == all {
 		p.bar.Set(sum)
 		p.shown = sum
 	}
