@@ -1,9 +1,9 @@
 package diagnostics
 
 import (
+	"cmp"
 	"math"
 	"slices"
-	"sort"
 
 	"gonum.org/v1/gonum/dsp/fourier"
 	"gonum.org/v1/gonum/mathext"
@@ -28,39 +28,39 @@ func RankNormalize(chains [][]float64) [][]float64 {
 	for _, c := range chains {
 		S += len(c)
 	}
-	type item struct {
-		v    float64
-		c, i int
+	vals := make([]float64, 0, S)
+	for _, c := range chains {
+		vals = append(vals, c...)
 	}
-	all := make([]item, 0, S)
-	for ci, c := range chains {
-		for i, v := range c {
-			all = append(all, item{v, ci, i})
-		}
+	order := make([]int32, S)
+	for i := range order {
+		order[i] = int32(i)
 	}
-	sort.SliceStable(all, func(a, b int) bool { return all[a].v < all[b].v })
-	out := make([][]float64, len(chains))
-	for ci, c := range chains {
-		out[ci] = make([]float64, len(c))
-	}
+	slices.SortFunc(order, func(a, b int32) int { return cmp.Compare(vals[a], vals[b]) })
+	z := make([]float64, S)
 	for lo := 0; lo < S; {
 		hi := lo
-		for hi+1 < S && all[hi+1].v == all[lo].v {
+		for hi+1 < S && vals[order[hi+1]] == vals[order[lo]] {
 			hi++
 		}
 		r := float64(lo+hi)/2 + 1 // average 1-based rank of the ties
-		z := mathext.NormalQuantile((r - 0.375) / (float64(S) + 0.25))
+		v := mathext.NormalQuantile((r - 0.375) / (float64(S) + 0.25))
 		for k := lo; k <= hi; k++ {
-			out[all[k].c][all[k].i] = z
+			z[order[k]] = v
 		}
 		lo = hi + 1
+	}
+	out := make([][]float64, len(chains))
+	off := 0
+	for ci, c := range chains {
+		out[ci] = z[off : off+len(c)]
+		off += len(c)
 	}
 	return out
 }
 
-// fold returns |x - median(x)| over all chains.
-func fold(chains [][]float64) [][]float64 {
-	m := Quantile(pool(chains), 0.5)
+// fold returns |x - m| chain by chain.
+func fold(chains [][]float64, m float64) [][]float64 {
 	out := make([][]float64, len(chains))
 	for ci, c := range chains {
 		out[ci] = make([]float64, len(c))
@@ -121,7 +121,8 @@ func Rhat(chains [][]float64) float64 {
 		return math.NaN()
 	}
 	s := Split(chains)
-	return math.Max(RhatBasic(RankNormalize(s)), RhatBasic(RankNormalize(fold(s))))
+	m := Quantile(pool(chains), 0.5)
+	return math.Max(RhatBasic(RankNormalize(s)), RhatBasic(RankNormalize(fold(s, m))))
 }
 
 func constant(chains [][]float64) bool {
@@ -273,19 +274,22 @@ func MCSEMean(chains [][]float64) float64 {
 // the distance between the draws at the 15.87% and 84.13% points of a
 // beta(ess*p + 1, ess*(1-p) + 1) distribution, ess that of I(x <= q_p).
 func MCSEQuantile(chains [][]float64, p float64) float64 {
-	all := pool(chains)
-	ess := ESS(indicator(Split(chains), Quantile(all, p)))
+	s := slices.Clone(pool(chains))
+	slices.Sort(s)
+	return mcseQuantileSorted(Split(chains), s, p)
+}
+
+func mcseQuantileSorted(split [][]float64, sorted []float64, p float64) float64 {
+	ess := ESS(indicator(split, quantileSorted(sorted, p)))
 	if math.IsNaN(ess) {
 		return math.NaN()
 	}
 	a := mathext.InvRegIncBeta(ess*p+1, ess*(1-p)+1, 0.1586553)
 	b := mathext.InvRegIncBeta(ess*p+1, ess*(1-p)+1, 0.8413447)
-	s := slices.Clone(all)
-	slices.Sort(s)
-	S := len(s)
+	S := len(sorted)
 	i1 := max(int(math.Floor(a*float64(S))), 1)
 	i2 := min(int(math.Ceil(b*float64(S))), S)
-	return (s[i2-1] - s[i1-1]) / 2
+	return (sorted[i2-1] - sorted[i1-1]) / 2
 }
 
 // Quantile returns the p-quantile of x by linear interpolation between
@@ -316,25 +320,28 @@ type Summary struct {
 }
 
 // Summarize computes the Summary of chains with a central interval of the
-// given level (e.g. 0.95).
+// given level (e.g. 0.95). It shares the sorting and rank normalization
+// among the statistics, giving the same values as the separate functions.
 func Summarize(chains [][]float64, level float64) Summary {
 	all := pool(chains)
-	s := slices.Clone(all)
-	slices.Sort(s)
+	sorted := slices.Clone(all)
+	slices.Sort(sorted)
 	m, v := meanVar(all)
 	lp, up := (1-level)/2, 1-(1-level)/2
-	out := Summary{Mean: m, SD: math.Sqrt(v), Median: quantileSorted(s, 0.5),
-		Lower: quantileSorted(s, lp), Upper: quantileSorted(s, up), Level: level}
-	if len(chains[0]) < 4 {
-		out.Rhat, out.ESSBulk, out.ESSTail, out.MCSEMean = math.NaN(), math.NaN(), math.NaN(), math.NaN()
-		out.MCSELower, out.MCSEUpper = math.NaN(), math.NaN()
+	out := Summary{Mean: m, SD: math.Sqrt(v), Median: quantileSorted(sorted, 0.5),
+		Lower: quantileSorted(sorted, lp), Upper: quantileSorted(sorted, up), Level: level}
+	nan := math.NaN()
+	if len(chains[0]) < 4 || constant(chains) {
+		out.Rhat, out.ESSBulk, out.ESSTail, out.MCSEMean, out.MCSELower, out.MCSEUpper = nan, nan, nan, nan, nan, nan
 		return out
 	}
-	out.Rhat = Rhat(chains)
-	out.ESSBulk = ESSBulk(chains)
-	out.ESSTail = ESSTail(chains)
-	out.MCSEMean = MCSEMean(chains)
-	out.MCSELower = MCSEQuantile(chains, lp)
-	out.MCSEUpper = MCSEQuantile(chains, up)
+	split := Split(chains)
+	z := RankNormalize(split)
+	out.ESSBulk = ESS(z)
+	out.Rhat = math.Max(RhatBasic(z), RhatBasic(RankNormalize(fold(split, out.Median))))
+	out.ESSTail = math.Min(ESS(indicator(split, quantileSorted(sorted, 0.05))), ESS(indicator(split, quantileSorted(sorted, 0.95))))
+	out.MCSEMean = math.Sqrt(v / ESS(split))
+	out.MCSELower = mcseQuantileSorted(split, sorted, lp)
+	out.MCSEUpper = mcseQuantileSorted(split, sorted, up)
 	return out
 }

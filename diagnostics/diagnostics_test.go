@@ -119,3 +119,27 @@ func ExampleSummarize() {
 	fmt.Printf("mean %.1f, R-hat below 1.01: %v, bulk-ESS above 3000: %v\n", s.Mean, s.Rhat < 1.01, s.ESSBulk > 3000)
 	// Output: mean 2.0, R-hat below 1.01: true, bulk-ESS above 3000: true
 }
+
+// TestSummarizeMatchesParts: the shared-work Summarize must give exactly
+// the values of the separate functions.
+func TestSummarizeMatchesParts(t *testing.T) {
+	for _, name := range []string{"ar1_phi0.9", "iid_normal_chain4_shift0.5"} {
+		ch := readChains(t, name)
+		s := Summarize(ch, 0.9)
+		lp, up := (1-0.9)/2, 1-(1-0.9)/2
+		checks := []struct {
+			what      string
+			got, want float64
+		}{
+			{"rhat", s.Rhat, Rhat(ch)}, {"ess_bulk", s.ESSBulk, ESSBulk(ch)}, {"ess_tail", s.ESSTail, ESSTail(ch)},
+			{"mcse_mean", s.MCSEMean, MCSEMean(ch)}, {"mcse_lower", s.MCSELower, MCSEQuantile(ch, lp)},
+			{"mcse_upper", s.MCSEUpper, MCSEQuantile(ch, up)}, {"lower", s.Lower, Quantile(pool(ch), lp)},
+			{"upper", s.Upper, Quantile(pool(ch), up)},
+		}
+		for _, c := range checks {
+			if c.got != c.want {
+				t.Errorf("%s: Summarize %s = %v, separate function = %v", name, c.what, c.got, c.want)
+			}
+		}
+	}
+}

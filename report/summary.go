@@ -6,6 +6,7 @@ import (
 	"math"
 	"strconv"
 	"strings"
+	"sync"
 
 	"github.com/lagstar/lagstar/diagnostics"
 	"github.com/lagstar/lagstar/model"
@@ -140,6 +141,9 @@ func tableOnly(es []Entry) []Entry {
 	return out
 }
 
+// entries summarizes every quantity; the work is split over a fixed number
+// of goroutines and results land by index, so the output does not depend on
+// scheduling.
 func entries(ps []sampler.Param, draws [][]float64, kept []int, level float64) []Entry {
 	out := make([]Entry, len(ps))
 	n := len(ps)
@@ -147,27 +151,37 @@ func entries(ps []sampler.Param, draws [][]float64, kept []int, level float64) [
 	for _, k := range kept {
 		minKept = min(minKept, k)
 	}
-	for p, par := range ps {
-		e := Entry{Name: par.Name, Kind: par.Kind, Outcome: par.Outcome, From: par.From, With: par.With,
-			Occasion: par.Occasion, Index: par.Index, table: par.Table}
-		if minKept > 0 {
+	const workers = 4
+	var wg sync.WaitGroup
+	for w := 0; w < workers; w++ {
+		wg.Add(1)
+		go func(w int) {
+			defer wg.Done()
 			chains := make([][]float64, len(draws))
-			for c := range draws {
-				chains[c] = make([]float64, minKept)
-				for d := 0; d < minKept; d++ {
-					chains[c][d] = draws[c][d*n+p]
+			for p := w; p < n; p += workers {
+				par := ps[p]
+				e := Entry{Name: par.Name, Kind: par.Kind, Outcome: par.Outcome, From: par.From, With: par.With,
+					Occasion: par.Occasion, Index: par.Index, table: par.Table, Level: Num(level)}
+				if minKept == 0 {
+					nan := Num(math.NaN())
+					e.Mean, e.SD, e.Median, e.Lower, e.Upper, e.Rhat, e.ESSBulk, e.ESSTail, e.MCSEMean = nan, nan, nan, nan, nan, nan, nan, nan, nan
+					out[p] = e
+					continue
 				}
+				for c := range draws {
+					chains[c] = make([]float64, minKept)
+					for d := 0; d < minKept; d++ {
+						chains[c][d] = draws[c][d*n+p]
+					}
+				}
+				sm := diagnostics.Summarize(chains, level)
+				e.Mean, e.SD, e.Median, e.Lower, e.Upper = Num(sm.Mean), Num(sm.SD), Num(sm.Median), Num(sm.Lower), Num(sm.Upper)
+				e.Rhat, e.ESSBulk, e.ESSTail, e.MCSEMean = Num(sm.Rhat), Num(sm.ESSBulk), Num(sm.ESSTail), Num(sm.MCSEMean)
+				out[p] = e
 			}
-			sm := diagnostics.Summarize(chains, level)
-			e.Mean, e.SD, e.Median, e.Lower, e.Upper = Num(sm.Mean), Num(sm.SD), Num(sm.Median), Num(sm.Lower), Num(sm.Upper)
-			e.Rhat, e.ESSBulk, e.ESSTail, e.MCSEMean = Num(sm.Rhat), Num(sm.ESSBulk), Num(sm.ESSTail), Num(sm.MCSEMean)
-		} else {
-			nan := Num(math.NaN())
-			e.Mean, e.SD, e.Median, e.Lower, e.Upper, e.Rhat, e.ESSBulk, e.ESSTail, e.MCSEMean = nan, nan, nan, nan, nan, nan, nan, nan, nan
-		}
-		e.Level = Num(level)
-		out[p] = e
+		}(w)
 	}
+	wg.Wait()
 	return out
 }
 
