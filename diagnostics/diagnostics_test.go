@@ -125,8 +125,9 @@ func ExampleSummarize() {
 func TestSummarizeMatchesParts(t *testing.T) {
 	for _, name := range []string{"ar1_phi0.9", "iid_normal_chain4_shift0.5"} {
 		ch := readChains(t, name)
-		s := Summarize(ch, 0.9)
-		lp, up := (1-0.9)/2, 1-(1-0.9)/2
+		level := 0.9
+		s := Summarize(ch, level)
+		lp, up := (1-level)/2, 1-(1-level)/2 // as Summarize computes them (not as exact constants)
 		checks := []struct {
 			what      string
 			got, want float64
