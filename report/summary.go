@@ -47,7 +47,11 @@ type Entry struct {
 	ESSBulk  Num    `json:"ess_bulk"`
 	ESSTail  Num    `json:"ess_tail"`
 	MCSEMean Num    `json:"mcse_mean"`
-	table    bool
+	// MCSELower and MCSEUpper are the Monte Carlo standard errors of the
+	// interval bounds.
+	MCSELower Num `json:"mcse_lower"`
+	MCSEUpper Num `json:"mcse_upper"`
+	table     bool
 }
 
 // OutcomeInfo describes one outcome in the summary.
@@ -165,6 +169,7 @@ func entries(ps []sampler.Param, draws [][]float64, kept []int, level float64) [
 				if minKept == 0 {
 					nan := Num(math.NaN())
 					e.Mean, e.SD, e.Median, e.Lower, e.Upper, e.Rhat, e.ESSBulk, e.ESSTail, e.MCSEMean = nan, nan, nan, nan, nan, nan, nan, nan, nan
+					e.MCSELower, e.MCSEUpper = nan, nan
 					out[p] = e
 					continue
 				}
@@ -177,6 +182,7 @@ func entries(ps []sampler.Param, draws [][]float64, kept []int, level float64) [
 				sm := diagnostics.Summarize(chains, level)
 				e.Mean, e.SD, e.Median, e.Lower, e.Upper = Num(sm.Mean), Num(sm.SD), Num(sm.Median), Num(sm.Lower), Num(sm.Upper)
 				e.Rhat, e.ESSBulk, e.ESSTail, e.MCSEMean = Num(sm.Rhat), Num(sm.ESSBulk), Num(sm.ESSTail), Num(sm.MCSEMean)
+				e.MCSELower, e.MCSEUpper = Num(sm.MCSELower), Num(sm.MCSEUpper)
 				out[p] = e
 			}
 		}(w)

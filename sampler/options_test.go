@@ -1,0 +1,120 @@
+package sampler
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"testing"
+
+	"github.com/lagstar/lagstar/model"
+	"github.com/lagstar/lagstar/priors"
+)
+
+// TestEveryOptionCombination fits every combination of the model-file
+// options briefly (outcome mixes x random intercepts x lags x residual
+// correlation x paths over time x means over time x first occasion) and
+// requires finite draws of the expected parameter kinds, or a refusal by
+// Identify exactly where the rules say so.
+func TestEveryOptionCombination(t *testing.T) {
+	mixes := []struct {
+		name  string
+		types []model.OutcomeType
+	}{
+		{"binary", []model.OutcomeType{model.Binary}},
+		{"ordinal", []model.OutcomeType{model.Ordinal}},
+		{"continuous", []model.OutcomeType{model.Continuous}},
+		{"binary+ordinal+continuous", []model.OutcomeType{model.Binary, model.Ordinal, model.Continuous}},
+	}
+	fitted, refused := 0, 0
+	for mi, mix := range mixes {
+		J := len(mix.types)
+		tr := Truth{Sigma: make([]float64, J*J), Psi: make([]float64, J*J), A: make([]float64, J*J), Missing: 0.1}
+		for j, ty := range mix.types {
+			tr.Names = append(tr.Names, fmt.Sprintf("y%d", j+1))
+			tr.Types = append(tr.Types, ty)
+			switch ty {
+			case model.Binary:
+				tr.Tau = append(tr.Tau, []float64{0.2})
+			case model.Ordinal:
+				tr.Tau = append(tr.Tau, []float64{-0.8, 0, 0.9})
+			default:
+				tr.Tau = append(tr.Tau, nil)
+			}
+			tr.Sigma[j*J+j], tr.Psi[j*J+j], tr.A[j*J+j] = 1, 0.5, 0.3
+		}
+		csv, err := Simulate(tr, 30, 5, newRand(uint64(mi)))
+		if err != nil {
+			t.Fatal(err)
+		}
+		outs := ""
+		for j, ty := range mix.types {
+			outs += fmt.Sprintf("{name: y%d, type: %s}, ", j+1, ty)
+		}
+		for _, ri := range []bool{true, false} {
+			for _, lags := range []string{"none", "own", "cross"} {
+				for _, rc := range []bool{true, false} {
+					for _, paths := range []string{"equal", "free"} {
+						for _, means := range []string{"equal", "free"} {
+							for _, first := range []string{"free", "stationary"} {
+								yaml := fmt.Sprintf(`data: {file: x.csv, person: person, occasion: occasion}
+outcomes: [%s]
+between: {random_intercepts: %v}
+within: {lags: %s, residual_correlation: %v, over_time: %s, first_occasion: %s}
+means: {over_time: %s}
+`, outs, ri, lags, rc, paths, first, means)
+								name := fmt.Sprintf("%s/ri=%v/lags=%s/rc=%v/paths=%s/means=%s/first=%s", mix.name, ri, lags, rc, paths, means, first)
+								sp, err := model.ParseSpec("opt.yaml", []byte(yaml))
+								if err != nil {
+									t.Fatalf("%s: %v", name, err)
+								}
+								pan, err := model.ParsePanel(sp, "opt.csv", csv)
+								if err != nil {
+									t.Fatalf("%s: %v", name, err)
+								}
+								wantRefusal := (first == "stationary" && paths == "free") || (lags == "cross" && J < 2) || (rc && J < 2)
+								if err := model.Identify(sp, pan); err != nil {
+									if !wantRefusal {
+										t.Errorf("%s: refused unexpectedly: %v", name, err)
+									}
+									refused++
+									continue
+								}
+								if wantRefusal {
+									t.Errorf("%s: accepted, want a refusal", name)
+									continue
+								}
+								l := NewLayout(sp, pan, priors.Default())
+								res, err := Run(context.Background(), l, Options{Chains: 1, Warmup: 15, Draws: 10, Seed: 1})
+								if err != nil {
+									t.Errorf("%s: %v", name, err)
+									continue
+								}
+								for _, v := range append(res.Draws[0], res.DerivedDraws[0]...) {
+									if math.IsNaN(v) || math.IsInf(v, 0) {
+										t.Errorf("%s: non-finite draw", name)
+										break
+									}
+								}
+								kinds := map[string]int{}
+								for _, p := range res.Params {
+									kinds[p.Kind]++
+								}
+								if ri != (kinds["ri_variance"] == J) {
+									t.Errorf("%s: %d ri_variance parameters", name, kinds["ri_variance"])
+								}
+								if (lags != "none") != (kinds["autoregression"] > 0) || (lags == "cross") != (kinds["crosslag"] > 0) {
+									t.Errorf("%s: paths %v", name, kinds)
+								}
+								if rc && J > 1 && kinds["innovation_correlation"] == 0 {
+									t.Errorf("%s: no innovation correlations", name)
+								}
+								fitted++
+							}
+						}
+					}
+				}
+			}
+		}
+	}
+	t.Logf("%d combinations fitted, %d refused", fitted, refused)
+}
