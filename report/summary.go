@@ -9,7 +9,6 @@ import (
 	"sync"
 
 	"github.com/lagstar/lagstar/diagnostics"
-	"github.com/lagstar/lagstar/model"
 	"github.com/lagstar/lagstar/sampler"
 )
 
@@ -220,7 +219,7 @@ func clipList(xs []string) string {
 	return strings.Join(xs[:most], ", ") + fmt.Sprintf(" and %d more", len(xs)-most)
 }
 
-// WriteJSON writes the summary as indented JSON.
+// JSON renders the summary as indented JSON (NaN and infinities as null).
 func (s *Summary) JSON() ([]byte, error) {
 	b, err := json.MarshalIndent(s, "", "  ")
 	if err != nil {
@@ -229,4 +228,3 @@ func (s *Summary) JSON() ([]byte, error) {
 	return append(b, '\n'), nil
 }
 
-var _ = model.Binary

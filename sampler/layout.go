@@ -105,10 +105,8 @@ func NewLayout(sp *model.Spec, pan *model.Panel, pr priors.Set) *Layout {
 		}
 	}
 	freeSD := make([]bool, J)
-	anyFree := false
 	for j := range freeSD {
 		freeSD[j] = !l.Cat[j]
-		anyFree = anyFree || freeSD[j]
 	}
 	corr := l.ResCorr && J > 1
 	l.GroupOf = make([]int, T)
@@ -149,7 +147,6 @@ func NewLayout(sp *model.Spec, pan *model.Panel, pr priors.Set) *Layout {
 			l.GroupOf[0] = add(CovGroup{Initial: true, Occ: []int{0}, FreeSD: freeSD, Corr: corr})
 		}
 	}
-	_ = anyFree
 	l.CountAt = make([]int, T)
 	for _, n := range pan.Len {
 		l.MaxLen = max(l.MaxLen, n)

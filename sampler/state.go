@@ -7,7 +7,6 @@ import (
 
 	"github.com/lagstar/lagstar/internal/dense"
 	"github.com/lagstar/lagstar/latentresp"
-	"github.com/lagstar/lagstar/model"
 )
 
 // State is one chain's current values. Cell (i, t, j) of Ystar is at
@@ -304,4 +303,3 @@ func (s *State) setPaths(t int, a []float64) {
 	}
 }
 
-var _ = model.Binary
