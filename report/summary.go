@@ -227,4 +227,3 @@ func (s *Summary) JSON() ([]byte, error) {
 	}
 	return append(b, '\n'), nil
 }
-

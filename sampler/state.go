@@ -302,4 +302,3 @@ func (s *State) setPaths(t int, a []float64) {
 		copy(s.A[u*JJ:(u+1)*JJ], a)
 	}
 }
-
