@@ -114,15 +114,6 @@ func NewLayout(sp *model.Spec, pan *model.Panel, pr priors.Set) *Layout {
 		l.Groups = append(l.Groups, g)
 		return len(l.Groups) - 1
 	}
-	// First occasion.
-	if l.Stat && l.Lags != model.LagsNone {
-		l.GroupOf[0] = -1
-	} else if l.Stat {
-		// No carry-over: the stationary distribution is the innovation one.
-		l.GroupOf[0] = -2
-	} else {
-		l.GroupOf[0] = add(CovGroup{Initial: true, Occ: []int{0}, FreeSD: freeSD, Corr: corr})
-	}
 	if T > 1 {
 		if l.PathsFree {
 			for t := 1; t < T; t++ {
@@ -139,13 +130,18 @@ func NewLayout(sp *model.Spec, pan *model.Panel, pr priors.Set) *Layout {
 			}
 		}
 	}
-	if l.GroupOf[0] == -2 {
-		if T > 1 {
-			l.GroupOf[0] = l.GroupOf[1]
-			l.Groups[l.GroupOf[1]].Occ = append([]int{0}, l.Groups[l.GroupOf[1]].Occ...)
-		} else {
-			l.GroupOf[0] = add(CovGroup{Initial: true, Occ: []int{0}, FreeSD: freeSD, Corr: corr})
-		}
+	// First occasion: its own free group; under a stationary start it is
+	// derived from the paths (-1), or, without carry-over, it is the
+	// innovation distribution itself.
+	switch {
+	case l.Stat && l.HasPaths():
+		l.GroupOf[0] = -1
+	case l.Stat && T > 1:
+		g := l.GroupOf[1]
+		l.GroupOf[0] = g
+		l.Groups[g].Occ = append([]int{0}, l.Groups[g].Occ...)
+	default:
+		l.GroupOf[0] = add(CovGroup{Initial: true, Occ: []int{0}, FreeSD: freeSD, Corr: corr})
 	}
 	l.CountAt = make([]int, T)
 	for _, n := range pan.Len {
