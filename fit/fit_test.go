@@ -7,6 +7,8 @@ import (
 	"path/filepath"
 	"runtime"
 	"slices"
+	"strings"
+	"sync"
 	"testing"
 
 	"github.com/lagstar/lagstar/examples"
@@ -57,5 +59,33 @@ func TestDifferentSeedsDiffer(t *testing.T) {
 		if slices.Equal(first, out.Result.Draws[0]) {
 			t.Fatal("seeds 1 and 2 gave the same draws")
 		}
+	}
+}
+
+// TestCancelledRunIsIncomplete: a cancelled context stops the chains; the
+// run is written, marked incomplete in summary.json and run.json, and warns.
+func TestCancelledRunIsIncomplete(t *testing.T) {
+	m, d := examples.SleepDiary()
+	ctx, cancel := context.WithCancel(context.Background())
+	var once sync.Once
+	dir := t.TempDir()
+	out, err := Fit(ctx, Options{ModelPath: "m.yaml", ModelRaw: m, DataRaw: d, OutDir: dir, Chains: 2, Warmup: 10, Draws: 100000, Seed: 1, SeedSet: true,
+		Progress: func(chain, chains, done, total int) {
+			if done > 40 {
+				once.Do(cancel)
+			}
+		}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if out.Summary.Complete || out.Record.Complete {
+		t.Error("cancelled run marked complete")
+	}
+	if !strings.Contains(strings.Join(out.Summary.Warnings, " "), "interrupted") {
+		t.Errorf("warnings %q do not say the run was interrupted", out.Summary.Warnings)
+	}
+	raw, err := os.ReadFile(filepath.Join(dir, "summary.json"))
+	if err != nil || !strings.Contains(string(raw), `"complete": false`) {
+		t.Errorf("summary.json should say complete: false (err %v)", err)
 	}
 }
