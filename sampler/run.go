@@ -46,7 +46,7 @@ func Blocks(l *Layout, update model.ThresholdUpdate) []Block {
 		anyCat = anyCat || c
 	}
 	if anyCat {
-		bs = append(bs, NewThresholdBlock(l, update))
+		bs = append(bs, NewThresholdBlock(l, update), NewScaleBlock(l))
 	}
 	if l.RI {
 		bs = append(bs, NewInterceptBlock(l), NewLocationBlock(l))
