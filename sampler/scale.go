@@ -121,7 +121,7 @@ func (sb *ScaleBlock) Update(st *State, rng *rand.Rand) error {
 		sd := 1 / math.Sqrt(curv)
 		prop := m + sd*rng.NormFloat64()
 		// Independence proposal N(m, sd^2) from the current eta = 0.
-		logr := h(prop) - h(0) - (-0.5*(prop-m)*(prop-m)/(sd*sd)) + (-0.5*m*m/(sd*sd))
+		logr := h(prop) - h(0) - (-0.5 * (prop - m) * (prop - m) / (sd * sd)) + (-0.5 * m * m / (sd * sd))
 		if math.Log(rng.Float64()) >= logr {
 			continue
 		}
