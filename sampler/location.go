@@ -102,6 +102,6 @@ func (lb *LocationBlock) Update(st *State, rng *rand.Rand) error {
 			}
 		}
 	}
-	st.syncNu()
+	st.SyncNu()
 	return nil
 }

@@ -147,7 +147,7 @@ func (mb *MeanBlock) Update(st *State, rng *rand.Rand) error {
 	}
 	dense.EnvelopeSolveUpperT(mb.prec, p, mb.first, h)
 	copy(st.Mean, h)
-	st.syncNu()
+	st.SyncNu()
 	return nil
 }
 

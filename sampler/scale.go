@@ -142,7 +142,7 @@ func (sb *ScaleBlock) Update(st *State, rng *rand.Rand) error {
 			st.Mean[idx] *= g
 		}
 	}
-	st.syncNu()
+	st.SyncNu()
 	return nil
 }
 

@@ -84,7 +84,7 @@ func NewState(l *Layout, rng *rand.Rand) *State {
 	for i := range s.Mean {
 		s.Mean[i] = 0.2 * (rng.Float64() - 0.5)
 	}
-	s.syncNu()
+	s.SyncNu()
 	for t := 1; t < T; t++ {
 		for r := 0; r < J; r++ {
 			for c := 0; c < J; c++ {
@@ -157,8 +157,8 @@ func (s *State) interval(j, k int) (float64, float64) {
 	return lo, hi
 }
 
-// syncNu recomputes the occasion means from the free mean parameters.
-func (s *State) syncNu() {
+// SyncNu recomputes the occasion means Nu from the free mean parameters Mean.
+func (s *State) SyncNu() {
 	for i, idx := range s.L.MeanIdx {
 		if idx >= 0 {
 			s.Nu[i] = s.Mean[idx]

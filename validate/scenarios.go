@@ -1,0 +1,52 @@
+package validate
+
+import "fmt"
+
+// base builds a model file for calibration scenarios.
+func base(outcomes, between, within, means string) string {
+	return fmt.Sprintf(`data: {file: sim.csv, person: person, occasion: occasion}
+outcomes: %s
+between: {%s}
+within: {%s}
+means: {%s}
+`, outcomes, between, within, means)
+}
+
+const (
+	pairOB = `[{name: mood, type: ordinal, categories: 4, lowest: 1}, {name: ache, type: binary}]`
+	ri     = "random_intercepts: true"
+	noRI   = "random_intercepts: false"
+	cross  = "lags: cross, residual_correlation: true, over_time: equal, first_occasion: free"
+	eqM    = "over_time: equal"
+)
+
+// Scenarios lists one calibration scenario per model option of the model
+// file (docs/validation.md): each outcome type, carry-over none/own/cross,
+// residual correlation on/off, paths and means free over time, with and
+// without random intercepts, a stationary start and heavy missingness. The
+// bivariate ones vary one option at a time from an ordinal + binary
+// cross-lagged random-intercept base.
+func Scenarios() []Scenario {
+	one := func(name, outcome string) Scenario {
+		return Scenario{Name: name, Model: base("["+outcome+"]", ri, "lags: own", eqM), Persons: 40, Times: 6, Missing: 0.05}
+	}
+	two := func(name, between, within, means string, missing float64) Scenario {
+		return Scenario{Name: name, Model: base(pairOB, between, within, means), Persons: 50, Times: 6, Missing: missing}
+	}
+	return []Scenario{
+		one("binary", "{name: y, type: binary}"),
+		one("ordinal K=3", "{name: y, type: ordinal, categories: 3, lowest: 0}"),
+		one("ordinal K=7", "{name: y, type: ordinal, categories: 7, lowest: 0}"),
+		one("continuous", "{name: y, type: continuous}"),
+		{Name: "mixed ordinal+binary+continuous", Model: base(`[{name: a, type: ordinal, categories: 4, lowest: 0}, {name: b, type: binary}, {name: c, type: continuous}]`, ri, cross, eqM), Persons: 50, Times: 6, Missing: 0.05},
+		two("carry-over none", ri, "lags: none, residual_correlation: true", eqM, 0.05),
+		two("carry-over own", ri, "lags: own, residual_correlation: true", eqM, 0.05),
+		two("carry-over cross", ri, cross, eqM, 0.05),
+		two("residual correlation off", ri, "lags: cross, residual_correlation: false", eqM, 0.05),
+		two("paths free over time", ri, "lags: cross, residual_correlation: true, over_time: free", eqM, 0.05),
+		two("means free over time", ri, cross, "over_time: free", 0.05),
+		two("no random intercepts", noRI, cross, eqM, 0.05),
+		two("stationary start", ri, "lags: cross, residual_correlation: true, first_occasion: stationary", eqM, 0.05),
+		two("missing cells 25%", ri, cross, eqM, 0.25),
+	}
+}
