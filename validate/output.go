@@ -82,7 +82,36 @@ func WriteSBC(dir string, results []*SBCResult, verdicts []Verdict, cut float64)
 	if err := report.WriteAtomic(filepath.Join(dir, "sbc_ranks.csv"), rb.Bytes()); err != nil {
 		return err
 	}
-	return report.WriteAtomic(filepath.Join(dir, "sbc_verdicts.csv"), vb.Bytes())
+	if err := report.WriteAtomic(filepath.Join(dir, "sbc_verdicts.csv"), vb.Bytes()); err != nil {
+		return err
+	}
+	return report.WriteAtomic(filepath.Join(dir, "sbc_summary.md"), []byte(SummaryTable(results, verdicts, cut)))
+}
+
+// SummaryTable renders one Markdown row per scenario: parameters,
+// replications, the smallest p-value and its parameter, the verdict.
+func SummaryTable(results []*SBCResult, verdicts []Verdict, cut float64) string {
+	var b strings.Builder
+	fmt.Fprintf(&b, "| scenario | parameters | replications | smallest p (parameter) | verdict |\n|---|---|---|---|---|\n")
+	for _, r := range results {
+		minP, arg, pass := 1.0, "", true
+		for _, v := range verdicts {
+			if v.Scenario != r.Scenario.Name {
+				continue
+			}
+			if v.PValue < minP {
+				minP, arg = v.PValue, v.Param
+			}
+			pass = pass && v.Pass
+		}
+		verdict := "pass"
+		if !pass {
+			verdict = "FAIL"
+		}
+		fmt.Fprintf(&b, "| %s | %d | %d | %.3g (%s) | %s |\n", r.Scenario.Name, len(r.Names), r.Config.Reps, minP, arg, verdict)
+	}
+	fmt.Fprintf(&b, "\nBonferroni threshold over all %d tests at family-wise level 0.05: p < %.2g fails.\n", len(verdicts), cut)
+	return b.String()
 }
 
 func slug(s string) string {
