@@ -2,56 +2,75 @@ package sampler
 
 import (
 	"fmt"
-	"math"
+	"math/rand/v2"
 	"testing"
+	"time"
 
 	"github.com/lagstar/lagstar/latentresp"
 	"github.com/lagstar/lagstar/model"
 )
 
-// benchLayout builds a two-outcome (ordinal K=5 + binary) cross-lagged
-// random-intercept panel of n persons and t occasions.
-func benchLayout(b *testing.B, n, t int) *Layout {
-	tr := Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Ordinal, model.Binary},
-		Tau: [][]float64{{-1.2, -0.4, 0.4, 1.2}, {0.5}}, Psi: []float64{0.6, 0.2, 0.2, 0.5},
-		A: []float64{0.4, 0.1, 0.1, 0.3}, Sigma: []float64{1, 0.2, 0.2, 1}, Missing: 0.05}
-	csv, err := Simulate(tr, n, t, newRand(1))
-	if err != nil {
-		b.Fatal(err)
+// BenchmarkSweep times one full Gibbs sweep of problems D and P (and of D
+// and P with twice the persons, for figure c of docs/performance.md) and
+// reports ns per latent draw (categorical or missing cell) and the ratio
+// to the floor: the same sweep's truncation intervals drawn in a tight loop,
+// timed in the same run (figure a).
+func BenchmarkSweep(b *testing.B) {
+	for _, p := range problems() {
+		if p.large {
+			continue
+		}
+		for _, mult := range []int{1, 2} {
+			q := p
+			q.n *= mult
+			b.Run(fmt.Sprintf("%s/persons=%d/occasions=%d", q.name, q.n, q.t), func(b *testing.B) {
+				l := q.layout(b)
+				rng := newRand(2)
+				st := NewState(l, rng)
+				blocks := Blocks(l, model.ThresholdJoint)
+				for range 20 {
+					Sweep(st, blocks, rng)
+				}
+				floor := floorNs(l, st, rng)
+				latent := latentCount(st)
+				b.ReportAllocs()
+				for b.Loop() {
+					if err := Sweep(st, blocks, rng); err != nil {
+						b.Fatal(err)
+					}
+				}
+				ns := float64(b.Elapsed().Nanoseconds()) / float64(b.N) / float64(latent)
+				b.ReportMetric(ns, "ns/latent")
+				b.ReportMetric(ns/floor, "x-floor")
+			})
+		}
 	}
-	return layoutFrom(b, `
-data: {file: x.csv, person: person, occasion: occasion}
-outcomes: [{name: a, type: ordinal, categories: 5, lowest: 0}, {name: b, type: binary}]
-within: {lags: cross, first_occasion: stationary}
-means: {over_time: equal}
-`, csv)
 }
 
-// BenchmarkSweep times one full Gibbs sweep and reports ns per latent draw
-// (categorical or missing cell), with the floor of drawing the same number
-// of two-sided truncated normals in a tight loop alongside.
-func BenchmarkSweep(b *testing.B) {
-	for _, size := range []struct{ n, t int }{{200, 10}, {120, 42}, {1000, 10}} {
-		b.Run(fmt.Sprintf("persons=%d/occasions=%d", size.n, size.t), func(b *testing.B) {
-			l := benchLayout(b, size.n, size.t)
-			rng := newRand(2)
-			st := NewState(l, rng)
-			blocks := Blocks(l, model.ThresholdJoint)
-			latent := 0
-			for c, v := range st.Y {
-				if l.Cat[c%l.J] || math.IsNaN(v) {
-					latent++
-				}
-			}
-			b.ReportAllocs()
-			for b.Loop() {
-				if err := Sweep(st, blocks, rng); err != nil {
-					b.Fatal(err)
-				}
-			}
-			b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/float64(latent), "ns/latent")
-		})
+// floorNs returns the time per draw of TruncStdNormal on the intervals of
+// one latent sweep of st, drawn in a tight loop (missing cells counted as
+// plain normal draws).
+func floorNs(l *Layout, st *State, rng *rand.Rand) float64 {
+	var ab [][2]float64
+	lb := NewLatentBlock(l)
+	lb.record = func(a, c float64) { ab = append(ab, [2]float64{a, c}) }
+	lb.Update(st, rng)
+	missing := latentCount(st) - len(ab)
+	start := time.Now()
+	s := 0.0
+	const rounds = 30
+	for range rounds {
+		for _, x := range ab {
+			s += latentresp.TruncStdNormal(rng, x[0], x[1])
+		}
+		for range missing {
+			s += rng.NormFloat64()
+		}
 	}
+	if s == 42 {
+		fmt.Print("")
+	}
+	return float64(time.Since(start).Nanoseconds()) / rounds / float64(len(ab)+missing)
 }
 
 // BenchmarkTruncNormalFloor draws two-sided truncated normals in a tight

@@ -21,11 +21,17 @@ type Block interface {
 // truncated to the observed category's threshold interval (Albert & Chib
 // 1993). Missing cells are drawn without truncation (missing at random).
 // Reads B, Nu, Tau and the precision caches; writes Ystar.
-type LatentBlock struct{ w []float64 }
+type LatentBlock struct {
+	w     []float64
+	v, sv []float64 // J x J scratch for WQuad
+	// record, when set (benchmarks only), receives every standardized
+	// truncation interval drawn from.
+	record func(a, b float64)
+}
 
 // NewLatentBlock allocates the block's workspace.
 func NewLatentBlock(l *Layout) *LatentBlock {
-	return &LatentBlock{w: make([]float64, l.MaxLen*l.J)}
+	return &LatentBlock{w: make([]float64, l.MaxLen*l.J), v: make([]float64, l.J*l.J), sv: make([]float64, l.J*l.J)}
 }
 
 // Name implements Block.
@@ -37,6 +43,9 @@ func (lb *LatentBlock) Update(st *State, rng *rand.Rand) error {
 	J := l.J
 	JJ := J * J
 	w := lb.w
+	for k := range st.WQuad {
+		st.WQuad[k] = 0
+	}
 	for i := 0; i < l.N; i++ {
 		off := l.Panel.Offset[i]
 		Ti := l.Panel.Len[i]
@@ -44,44 +53,65 @@ func (lb *LatentBlock) Update(st *State, rng *rand.Rand) error {
 		b := st.B[i*J : i*J+J]
 		for t := 0; t < Ti; t++ {
 			d := st.DMid[t*JJ : (t+1)*JJ]
+			sds, invs := st.MidSD[t*J:(t+1)*J], st.MidInv[t*J:(t+1)*J]
 			if t == Ti-1 {
 				d = st.SigInv[t*JJ : (t+1)*JJ]
+				sds, invs = st.LastSD[t*J:(t+1)*J], st.LastInv[t*J:(t+1)*J]
 			}
+			var lt, ln []float64
+			if t > 0 {
+				lt = st.LBlk[t*JJ : (t+1)*JJ]
+			}
+			if t+1 < Ti {
+				ln = st.LBlk[(t+1)*JJ : (t+2)*JJ]
+			}
+			wt := w[t*J : (t+1)*J]
 			for j := 0; j < J; j++ {
 				c := off + t*J + j
 				y := st.Y[c]
-				miss := math.IsNaN(y)
+				miss := y != y // NaN
 				if !miss && !l.Cat[j] {
 					continue
 				}
 				acc := 0.0
-				for k := 0; k < J; k++ {
+				for k, dk := range d[j*J : (j+1)*J] {
 					if k != j {
-						acc += d[j*J+k] * w[t*J+k]
+						acc += dk * wt[k]
 					}
 				}
-				if t > 0 {
-					lt := st.LBlk[t*JJ : (t+1)*JJ]
+				if lt != nil {
+					wp := w[(t-1)*J : t*J]
+					for k, x := range lt[j*J : (j+1)*J] {
+						acc += x * wp[k]
+					}
+				}
+				if ln != nil {
+					wn := w[(t+1)*J : (t+2)*J]
 					for k := 0; k < J; k++ {
-						acc += lt[j*J+k] * w[(t-1)*J+k]
+						acc += ln[k*J+j] * wn[k]
 					}
 				}
-				if t+1 < Ti {
-					ln := st.LBlk[(t+1)*JJ : (t+2)*JJ]
-					for k := 0; k < J; k++ {
-						acc += ln[k*J+j] * w[(t+1)*J+k]
-					}
-				}
-				prec := d[j*J+j]
-				mean := -acc / prec
-				sd := 1 / math.Sqrt(prec)
+				mean := -acc * invs[j]
+				sd := sds[j]
 				if miss {
-					w[t*J+j] = mean + sd*rng.NormFloat64()
+					wt[j] = mean + sd*rng.NormFloat64()
 					continue
 				}
-				shift := st.Nu[t*J+j] + b[j]
-				lo, hi := st.interval(j, int(y))
-				w[t*J+j] = latentresp.TruncNormal(rng, mean, sd, lo-shift, hi-shift)
+				shift := st.Nu[t*J+j] + b[j] + mean
+				tau := st.Tau[j]
+				k := int(y)
+				lo, hi := math.Inf(-1), math.Inf(1)
+				if k > 0 {
+					lo = tau[k-1] - shift
+				}
+				if k < len(tau) {
+					hi = tau[k] - shift
+				}
+				isd := 1 / sd
+				if lb.record != nil {
+					lb.record(lo*isd, hi*isd)
+				}
+				wt[j] = mean + sd*latentresp.TruncStdNormal(rng, lo*isd, hi*isd)
 			}
 		}
 		for t := 0; t < Ti; t++ {
@@ -90,8 +120,64 @@ func (lb *LatentBlock) Update(st *State, rng *rand.Rand) error {
 				st.Ystar[off+c+j] = w[c+j] + st.Nu[c+j] + bj
 			}
 		}
+		accumulateWQuad(st, st.WQuad, w, Ti, lb.v, lb.sv)
 	}
+	symmetrize(st.WQuad, J)
+	st.WQuadOK = true
 	return nil
+}
+
+// accumulateWQuad adds one person's terms of State.WQuad (lower triangle
+// and diagonal only; the caller symmetrizes) for within path w of Ti
+// occasions; v and sv are J x J scratch.
+func accumulateWQuad(st *State, m, w []float64, Ti int, v, sv []float64) {
+	J := st.L.J
+	JJ := J * J
+	if J == 1 {
+		for t := 0; t < Ti; t++ {
+			x := w[t]
+			if t > 0 {
+				x -= st.A[t] * w[t-1]
+			}
+			m[0] += x * x * st.SigInv[t]
+		}
+		return
+	}
+	for t := 0; t < Ti; t++ {
+		si := st.SigInv[t*JJ : (t+1)*JJ]
+		for j := 0; j < J; j++ {
+			vj := v[j*J : (j+1)*J]
+			for r := range vj {
+				x := 0.0
+				if r == j {
+					x = w[t*J+j]
+				}
+				if t > 0 {
+					x -= st.A[t*JJ+r*J+j] * w[(t-1)*J+j]
+				}
+				vj[r] = x
+			}
+			dense.MulVec(sv[j*J:(j+1)*J], si, vj, J, J)
+		}
+		for j := 0; j < J; j++ {
+			for k := 0; k <= j; k++ {
+				x := 0.0
+				for r := 0; r < J; r++ {
+					x += v[j*J+r] * sv[k*J+r]
+				}
+				m[j*J+k] += x
+			}
+		}
+	}
+}
+
+// symmetrize copies the lower triangle of the n x n matrix m to the upper.
+func symmetrize(m []float64, n int) {
+	for j := 0; j < n; j++ {
+		for k := 0; k < j; k++ {
+			m[k*n+j] = m[j*n+k]
+		}
+	}
 }
 
 // InterceptBlock draws each person's random intercepts b_i from their
@@ -157,6 +243,7 @@ func (ib *InterceptBlock) Update(st *State, rng *rand.Rand) error {
 			return errBlock("random intercepts", "conditional precision is not positive definite")
 		}
 	}
+	st.WQuadOK = false
 	e, h := ib.e, ib.h
 	r := ib.tmp[2*JJ : 2*JJ+J]
 	for i := 0; i < l.N; i++ {

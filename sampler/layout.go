@@ -2,6 +2,7 @@ package sampler
 
 import (
 	"math"
+	"slices"
 
 	"github.com/lagstar/lagstar/model"
 	"github.com/lagstar/lagstar/priors"
@@ -176,3 +177,15 @@ func meanSD(pan *model.Panel, j int) (float64, float64) {
 
 // HasPaths reports whether the model has carry-over.
 func (l *Layout) HasPaths() bool { return l.Lags != model.LagsNone }
+
+// hasFreeCovariance reports whether any covariance group has a free
+// standard deviation or correlation (with only categorical outcomes and no
+// residual correlation, every Sigma_t is fixed at the identity).
+func (l *Layout) hasFreeCovariance() bool {
+	for _, g := range l.Groups {
+		if g.Corr || slices.Contains(g.FreeSD, true) {
+			return true
+		}
+	}
+	return false
+}

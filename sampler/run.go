@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"sync"
 	"time"
 
@@ -38,18 +39,27 @@ type Result struct {
 	Options    Options
 }
 
-// Blocks returns the Gibbs blocks of the layout in sweep order.
+// Blocks returns the Gibbs blocks of the layout in sweep order. With
+// model.ThresholdAlbertChib the sampler is plain data augmentation (Albert
+// & Chib 1993): no joint threshold, scale or location moves, the baseline
+// for benchmarks.
 func Blocks(l *Layout, update model.ThresholdUpdate) []Block {
+	plain := update == model.ThresholdAlbertChib
 	bs := []Block{NewLatentBlock(l)}
-	anyCat := false
-	for _, c := range l.Cat {
-		anyCat = anyCat || c
-	}
+	anyCat := slices.Contains(l.Cat, true)
 	if anyCat {
-		bs = append(bs, NewThresholdBlock(l, update), NewScaleBlock(l))
+		// The scale block comes right after the latent block, whose pass
+		// leaves the within-path sums it needs (State.WQuad).
+		if !plain {
+			bs = append(bs, NewScaleBlock(l))
+		}
+		bs = append(bs, NewThresholdBlock(l, update))
 	}
 	if l.RI {
-		bs = append(bs, NewInterceptBlock(l), NewLocationBlock(l))
+		bs = append(bs, NewInterceptBlock(l))
+		if !plain {
+			bs = append(bs, NewLocationBlock(l))
+		}
 	}
 	if l.NMean > 0 {
 		bs = append(bs, NewMeanBlock(l))
@@ -57,7 +67,7 @@ func Blocks(l *Layout, update model.ThresholdUpdate) []Block {
 	if l.HasPaths() {
 		bs = append(bs, NewPathBlock(l))
 	}
-	if len(l.Groups) > 0 {
+	if l.hasFreeCovariance() {
 		bs = append(bs, NewCovBlock(l))
 	}
 	if l.RI {
@@ -81,6 +91,12 @@ func ChainSeeds(seed uint64, chains int) [][2]uint64 {
 // at the next sweep; the result then holds what was kept and is marked
 // Incomplete.
 func Run(ctx context.Context, l *Layout, opt Options) (*Result, error) {
+	return runOpts(ctx, l, opt, nil)
+}
+
+// runOpts is Run with an optional change to every chain's blocks (tests
+// and benchmarks compare variants of the sampler this way).
+func runOpts(ctx context.Context, l *Layout, opt Options, tweak func([]Block)) (*Result, error) {
 	start := time.Now()
 	res := &Result{Layout: l, Params: l.Params(), Derived: l.DerivedParams(), Options: opt,
 		Draws: make([][]float64, opt.Chains), DerivedDraws: make([][]float64, opt.Chains), Kept: make([]int, opt.Chains)}
@@ -91,7 +107,7 @@ func Run(ctx context.Context, l *Layout, opt Options) (*Result, error) {
 		wg.Add(1)
 		go func(c int) {
 			defer wg.Done()
-			errs[c] = runChain(ctx, l, opt, c, seeds[c], res)
+			errs[c] = runChain(ctx, l, opt, c, seeds[c], res, tweak)
 		}(c)
 	}
 	wg.Wait()
@@ -109,10 +125,13 @@ func Run(ctx context.Context, l *Layout, opt Options) (*Result, error) {
 	return res, nil
 }
 
-func runChain(ctx context.Context, l *Layout, opt Options, c int, seed [2]uint64, res *Result) error {
+func runChain(ctx context.Context, l *Layout, opt Options, c int, seed [2]uint64, res *Result, tweak func([]Block)) error {
 	rng := rand.New(rand.NewPCG(seed[0], seed[1]))
 	st := NewState(l, rng)
 	blocks := Blocks(l, opt.ThresholdUpdate)
+	if tweak != nil {
+		tweak(blocks)
+	}
 	np, nd := len(res.Params), len(res.Derived)
 	draws := make([]float64, 0, opt.Draws*np)
 	derived := make([]float64, 0, opt.Draws*nd)

@@ -21,6 +21,8 @@ import (
 // it is drawn by an independence Metropolis-Hastings step from the normal
 // approximation at its mode. Reads and writes Ystar, B, Tau, Mean, Nu.
 type ScaleBlock struct {
+	m, r    []float64 // J x J sums of the quadratic forms
+	v, sv   []float64 // J x J shares of the innovation and Sigma^{-1} times them
 	w       []float64
 	psiIn   []float64
 	tmp     []float64
@@ -30,7 +32,8 @@ type ScaleBlock struct {
 
 // NewScaleBlock allocates the block's workspace.
 func NewScaleBlock(l *Layout) *ScaleBlock {
-	sb := &ScaleBlock{w: make([]float64, l.MaxLen*l.J), psiIn: make([]float64, l.J*l.J), tmp: make([]float64, l.J*l.J+l.J),
+	sb := &ScaleBlock{m: make([]float64, l.J*l.J), r: make([]float64, l.J*l.J), v: make([]float64, l.J*l.J), sv: make([]float64, l.J*l.J),
+		w: make([]float64, l.MaxLen*l.J), psiIn: make([]float64, l.J*l.J), tmp: make([]float64, l.J*l.J+l.J),
 		meansOf: NewLocationBlock(l).meansOf, d: make([]float64, l.J)}
 	J := l.J
 	for j := 0; j < J; j++ {
@@ -54,6 +57,13 @@ func NewScaleBlock(l *Layout) *ScaleBlock {
 func (*ScaleBlock) Name() string { return "scale moves" }
 
 // Update implements Block.
+//
+// One pass over the data collects M[j][k] = sum_t v_j' Sigma_t^{-1} v_k,
+// where v_j = e_j w_tj - A_t[:, j] w_{t-1,j} is outcome j's share of the
+// innovation (zeta_t = sum_j v_j), and R[j][k] = sum_i b_ij (Psi^{-1})_jk b_ik.
+// Scaling outcome j by g multiplies row and column j of both by g (the
+// diagonal by g^2), so the outcomes are moved one after another from these
+// sums alone.
 func (sb *ScaleBlock) Update(st *State, rng *rand.Rand) error {
 	l := st.L
 	J := l.J
@@ -61,71 +71,67 @@ func (sb *ScaleBlock) Update(st *State, rng *rand.Rand) error {
 	if l.RI && !dense.Inverse(sb.psiIn, st.Psi, J, sb.tmp[:JJ], sb.tmp[JJ:]) {
 		return errBlock("scale moves", "random-intercept covariance is not positive definite")
 	}
+	statsOK := st.WQuadOK
+	M, R := sb.m, sb.r
+	for k := range M {
+		M[k], R[k] = 0, 0
+	}
+	if st.WQuadOK {
+		copy(M, st.WQuad)
+	} else {
+		for i := 0; i < l.N; i++ {
+			st.fillW(sb.w, i, st.Ystar)
+			accumulateWQuad(st, M, sb.w, l.Panel.Len[i], sb.v, sb.sv)
+		}
+	}
+	symmetrize(M, J)
+	if l.RI {
+		for i := 0; i < l.N; i++ {
+			b := st.B[i*J : i*J+J]
+			for j := 0; j < J; j++ {
+				for k := 0; k <= j; k++ {
+					R[j*J+k] += b[j] * sb.psiIn[j*J+k] * b[k]
+				}
+			}
+		}
+		symmetrize(R, J)
+	}
 	for j := 0; j < J; j++ {
 		if !l.Cat[j] {
 			continue
 		}
 		// log pi(g) = -a g^2/2 + c g + const.
-		a, c := 0.0, 0.0
-		for i := 0; i < l.N; i++ {
-			st.fillW(sb.w, i, st.Ystar)
-			w := sb.w
-			for t := 0; t < l.Panel.Len[i]; t++ {
-				si := st.SigInv[t*JJ : (t+1)*JJ]
-				// zeta_t = u + g v, v = e_j w_tj - A_t[:, j] w_{t-1,j}.
-				var at []float64
-				if t > 0 {
-					at = st.A[t*JJ : (t+1)*JJ]
-				}
-				for r := 0; r < J; r++ {
-					vr, ur := sb.split(w, at, t, r, j, J)
-					for q := 0; q < J; q++ {
-						vq, _ := sb.split(w, at, t, q, j, J)
-						a += vr * si[r*J+q] * vq
-						c -= ur * si[r*J+q] * vq
-					}
-				}
-			}
-			if l.RI {
-				b := st.B[i*J : i*J+J]
-				a += b[j] * sb.psiIn[j*J+j] * b[j]
-				for k := 0; k < J; k++ {
-					if k != j {
-						c -= b[k] * sb.psiIn[k*J+j] * b[j]
-					}
-				}
+		a := M[j*J+j] + R[j*J+j]
+		c := 0.0
+		for k := 0; k < J; k++ {
+			if k != j {
+				c -= M[j*J+k] + R[j*J+k]
 			}
 		}
 		iv := 1 / (l.Priors.ThresholdSD * l.Priors.ThresholdSD)
-		for _, v := range st.Tau[j] {
-			a += iv * v * v
+		for _, x := range st.Tau[j] {
+			a += iv * x * x
 		}
 		iv = 1 / (l.Priors.MeanSD * l.Priors.MeanSD)
 		for _, idx := range sb.meansOf[j] {
 			a += iv * st.Mean[idx] * st.Mean[idx]
 		}
-		d := sb.d[j]
-		h := func(eta float64) float64 {
-			g := math.Exp(eta)
-			return d*eta - 0.5*a*g*g + c*g
-		}
-		g0 := (c + math.Sqrt(c*c+4*a*d)) / (2 * a)
-		if !(g0 > 0) || math.IsInf(g0, 0) {
+		g, ok := sb.drawScale(rng, a, c, sb.d[j])
+		if !ok {
 			continue
 		}
-		m := math.Log(g0)
-		curv := 2*a*g0*g0 - c*g0 // -h''(m)
-		if !(curv > 0) {
-			continue
+		for k := 0; k < J; k++ {
+			f := g
+			if k == j {
+				f = g * g
+			}
+			M[j*J+k] *= f
+			R[j*J+k] *= f
+			if k != j {
+				M[k*J+j] *= g
+				R[k*J+j] *= g
+			}
 		}
-		sd := 1 / math.Sqrt(curv)
-		prop := m + sd*rng.NormFloat64()
-		// Independence proposal N(m, sd^2) from the current eta = 0.
-		logr := h(prop) - h(0) - (-0.5 * (prop - m) * (prop - m) / (sd * sd)) + (-0.5 * m * m / (sd * sd))
-		if math.Log(rng.Float64()) >= logr {
-			continue
-		}
-		g := math.Exp(prop)
 		for i := 0; i < l.N; i++ {
 			off := l.Panel.Offset[i]
 			for t := 0; t < l.Panel.Len[i]; t++ {
@@ -143,27 +149,37 @@ func (sb *ScaleBlock) Update(st *State, rng *rand.Rand) error {
 		}
 	}
 	st.SyncNu()
+	if statsOK {
+		copy(st.WQuad, M) // the sums of the scaled state
+		st.WQuadOK = true
+	}
 	return nil
 }
 
-// split returns the parts of zeta_t[r] that scale with outcome j (v) and
-// that do not (u).
-func (sb *ScaleBlock) split(w, at []float64, t, r, j, J int) (v, u float64) {
-	z := w[t*J+r]
-	if r == j {
-		v = z
-	} else {
-		u = z
+// drawScale makes the independence Metropolis-Hastings step for eta =
+// log g with target exp(d eta - a e^{2 eta}/2 + c e^eta), from eta = 0,
+// proposing from the normal approximation at the mode. It returns the new
+// g and whether the move was accepted.
+func (sb *ScaleBlock) drawScale(rng *rand.Rand, a, c, d float64) (float64, bool) {
+	h := func(eta float64) float64 {
+		g := math.Exp(eta)
+		return d*eta - 0.5*a*g*g + c*g
 	}
-	if t > 0 {
-		for k := 0; k < J; k++ {
-			x := at[r*J+k] * w[(t-1)*J+k]
-			if k == j {
-				v -= x
-			} else {
-				u -= x
-			}
-		}
+	g0 := (c + math.Sqrt(c*c+4*a*d)) / (2 * a)
+	if !(g0 > 0) || math.IsInf(g0, 0) {
+		return 1, false
 	}
-	return v, u
+	m := math.Log(g0)
+	curv := 2*a*g0*g0 - c*g0 // -h''(m)
+	if !(curv > 0) {
+		return 1, false
+	}
+	sd := 1 / math.Sqrt(curv)
+	prop := m + sd*rng.NormFloat64()
+	// Independence proposal N(m, sd^2) from the current eta = 0.
+	logr := h(prop) - h(0) + 0.5*(prop-m)*(prop-m)/(sd*sd) - 0.5*m*m/(sd*sd)
+	if math.Log(rng.Float64()) >= logr {
+		return 1, false
+	}
+	return math.Exp(prop), true
 }

@@ -32,6 +32,19 @@ type State struct {
 	LBlk   []float64 // -Sigma_t^{-1} A_t: the (t, t-1) block of the path precision
 	DMid   []float64 // Sigma_t^{-1} + A_{t+1}' Sigma_{t+1}^{-1} A_{t+1}
 	LogDet []float64 // log det Sigma_t
+	// Conditional sd and inverse precision of a single latent response at
+	// occasion t (T x J), for a person who goes on after t (Mid) or stops
+	// at t (Last).
+	MidSD, MidInv, LastSD, LastInv []float64
+
+	// WQuad[j*J+k] = sum over persons and occasions of v_j' Sigma_t^{-1} v_k,
+	// v_j = e_j w_tj - A_t[:, j] w_{t-1,j} being outcome j's share of the
+	// innovation zeta_t (so sum_jk WQuad = sum zeta' Sigma^{-1} zeta). The
+	// latent block fills it in its own pass; WQuadOK says it matches the
+	// current latent responses, random intercepts, means, paths and
+	// covariances. Blocks that change any of these clear WQuadOK.
+	WQuad   []float64
+	WQuadOK bool
 
 	Warmup bool // adaptation allowed
 	work   []float64
@@ -47,6 +60,8 @@ func NewState(l *Layout, rng *rand.Rand) *State {
 		Nu: make([]float64, T*J), A: make([]float64, T*J*J), Sig: make([]float64, T*J*J),
 		Psi: make([]float64, J*J), SigInv: make([]float64, T*J*J), LBlk: make([]float64, T*J*J),
 		DMid: make([]float64, T*J*J), LogDet: make([]float64, T), work: make([]float64, 6*J*J+2*J),
+		WQuad: make([]float64, J*J),
+		MidSD: make([]float64, T*J), MidInv: make([]float64, T*J), LastSD: make([]float64, T*J), LastInv: make([]float64, T*J),
 	}
 	for c, v := range l.Panel.Y {
 		j := c % J
@@ -159,6 +174,7 @@ func (s *State) interval(j, k int) (float64, float64) {
 
 // SyncNu recomputes the occasion means Nu from the free mean parameters Mean.
 func (s *State) SyncNu() {
+	s.WQuadOK = false
 	for i, idx := range s.L.MeanIdx {
 		if idx >= 0 {
 			s.Nu[i] = s.Mean[idx]
@@ -183,6 +199,7 @@ func (s *State) groupCov(dst []float64, g int) {
 // It returns an error when a matrix is not positive definite or the
 // carry-over is not stable under a stationary start.
 func (s *State) Refresh() error {
+	s.WQuadOK = false
 	l := s.L
 	J, T := l.J, l.T
 	JJ := J * J
@@ -231,6 +248,11 @@ func (s *State) Refresh() error {
 					d[a*J+b] += v
 				}
 			}
+		}
+		for j := 0; j < J; j++ {
+			pm, pl := d[j*J+j], si[j*J+j]
+			s.MidInv[t*J+j], s.MidSD[t*J+j] = 1/pm, 1/math.Sqrt(pm)
+			s.LastInv[t*J+j], s.LastSD[t*J+j] = 1/pl, 1/math.Sqrt(pl)
 		}
 	}
 	return nil

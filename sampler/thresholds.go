@@ -37,7 +37,7 @@ type ThresholdBlock struct {
 
 // NewThresholdBlock allocates the block's workspace.
 func NewThresholdBlock(l *Layout, update model.ThresholdUpdate) *ThresholdBlock {
-	tb := &ThresholdBlock{joint: update != model.ThresholdAlbertChib, moves: 2,
+	tb := &ThresholdBlock{joint: update != model.ThresholdAlbertChib, moves: 1,
 		logStep: make([]float64, l.J), tries: make([]int, l.J),
 		ys: make([]float64, len(l.Panel.Y)), w: make([]float64, l.MaxLen*l.J),
 		prop: make([]float64, 12), lo: make([]float64, 12), hi: make([]float64, 12), count: make([]int, 12),
@@ -69,13 +69,28 @@ func (tb *ThresholdBlock) Update(st *State, rng *rand.Rand) error {
 			continue
 		}
 		tb.albertChib(st, rng, j)
-		if tb.joint {
+		// A binary outcome's joint move is a shift of all its latent
+		// responses with the threshold; with random intercepts the exact
+		// location move already makes it.
+		if tb.joint && !(l.K[j] == 2 && l.RI) {
 			// tb.ys mirrors Ystar outside the cells being proposed; cur is
 			// the within-path log density at the current state.
 			copy(tb.ys, st.Ystar)
-			cur := st.withinQuad(st.Ystar, tb.w)
+			var cur float64
+			if st.WQuadOK {
+				for _, x := range st.WQuad {
+					cur += x
+				}
+				cur *= -0.5
+			} else {
+				cur = st.withinQuad(st.Ystar, tb.w)
+			}
 			for range tb.moves {
-				cur = tb.groupMove(st, rng, j, cur)
+				next := tb.groupMove(st, rng, j, cur)
+				if next != cur {
+					st.WQuadOK = false // latent responses of j moved
+				}
+				cur = next
 			}
 		}
 	}

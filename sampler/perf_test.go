@@ -1,0 +1,157 @@
+package sampler
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"os"
+	"testing"
+
+	"github.com/lagstar/lagstar/diagnostics"
+	"github.com/lagstar/lagstar/model"
+)
+
+// Benchmark problems of docs/performance.md (invented).
+//
+//	D: a diary, one 5-category item, 200 persons x 60 days, random
+//	   intercept, carry-over 0.6.
+//	P: a panel, two binary outcomes, 2000 persons x 6 waves, cross-lags and
+//	   random intercepts.
+//	L: a large panel, three ordinal outcomes, 100,000 persons x 10 waves.
+type problem struct {
+	name  string
+	yaml  string
+	tr    Truth
+	n, t  int
+	large bool
+}
+
+func problems() []problem {
+	return []problem{
+		{name: "D", n: 200, t: 60,
+			yaml: `data: {file: x.csv, person: person, occasion: occasion}
+outcomes: [{name: y, type: ordinal, categories: 5, lowest: 0}]
+within: {lags: own, first_occasion: stationary}
+means: {over_time: equal}
+`,
+			tr: Truth{Names: []string{"y"}, Types: []model.OutcomeType{model.Ordinal}, Tau: [][]float64{{-1.2, -0.4, 0.4, 1.2}},
+				Psi: []float64{0.5}, A: []float64{0.6}, Sigma: []float64{1}, Missing: 0.05}},
+		{name: "P", n: 2000, t: 6,
+			yaml: `data: {file: x.csv, person: person, occasion: occasion}
+outcomes: [{name: a, type: binary}, {name: b, type: binary}]
+within: {lags: cross}
+means: {over_time: free}
+`,
+			tr: Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Binary, model.Binary}, Tau: [][]float64{{0.3}, {-0.2}},
+				Psi: []float64{0.8, 0.3, 0.3, 0.6}, A: []float64{0.35, 0.15, 0.1, 0.3}, Sigma: []float64{1, 0.3, 0.3, 1}, Sigma1: []float64{1, 0.3, 0.3, 1}, Missing: 0.05}},
+		{name: "L", n: 100000, t: 10, large: true,
+			yaml: `data: {file: x.csv, person: person, occasion: occasion}
+outcomes: [{name: a, type: ordinal, categories: 5, lowest: 0}, {name: b, type: ordinal, categories: 4, lowest: 0}, {name: c, type: ordinal, categories: 3, lowest: 0}]
+within: {lags: cross}
+means: {over_time: free}
+`,
+			tr: Truth{Names: []string{"a", "b", "c"}, Types: []model.OutcomeType{model.Ordinal, model.Ordinal, model.Ordinal},
+				Tau: [][]float64{{-1.2, -0.4, 0.4, 1.2}, {-0.8, 0, 0.8}, {-0.5, 0.5}},
+				Psi: []float64{0.6, 0.2, 0.1, 0.2, 0.5, 0.15, 0.1, 0.15, 0.4}, A: []float64{0.4, 0.1, 0, 0.05, 0.3, 0.1, 0, 0.1, 0.35},
+				Sigma: []float64{1, 0.2, 0.1, 0.2, 1, 0.2, 0.1, 0.2, 1}, Sigma1: []float64{1, 0.3, 0.2, 0.3, 1, 0.3, 0.2, 0.3, 1}, Missing: 0.05}},
+	}
+}
+
+func (p problem) layout(tb testing.TB) *Layout {
+	csv, err := Simulate(p.tr, p.n, p.t, newRand(1))
+	if err != nil {
+		tb.Fatal(err)
+	}
+	return layoutFrom(tb, p.yaml, csv)
+}
+
+func latentCount(st *State) int {
+	n := 0
+	for c, v := range st.Y {
+		if st.L.Cat[c%st.L.J] || math.IsNaN(v) {
+			n++
+		}
+	}
+	return n
+}
+
+// BenchmarkBlocks times each Gibbs block of problems D and P once per
+// iteration, reporting ns per latent draw, so a block's share of a sweep can
+// be read off directly.
+func BenchmarkBlocks(b *testing.B) {
+	for _, p := range problems() {
+		if p.large {
+			continue
+		}
+		l := p.layout(b)
+		rng := newRand(2)
+		st := NewState(l, rng)
+		blocks := Blocks(l, model.ThresholdJoint)
+		for range 20 {
+			Sweep(st, blocks, rng)
+		}
+		n := latentCount(st)
+		for _, blk := range blocks {
+			b.Run(fmt.Sprintf("%s/%s", p.name, blk.Name()), func(b *testing.B) {
+				b.ReportAllocs()
+				for b.Loop() {
+					if err := blk.Update(st, rng); err != nil {
+						b.Fatal(err)
+					}
+				}
+				b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/float64(n), "ns/latent")
+			})
+		}
+	}
+}
+
+// essPerSecond fits l with the given blocks and returns the smallest
+// bulk-ESS over structural parameters (thresholds, paths, variances,
+// correlations) per second of sampling, with the parameter that sets it.
+func essPerSecond(tb testing.TB, l *Layout, update model.ThresholdUpdate, chains, warmup, draws int, seed uint64, tweak func([]Block)) (float64, string, float64) {
+	res, err := runWith(l, update, chains, warmup, draws, seed, tweak)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	np := len(res.Params)
+	minESS, arg := math.Inf(1), ""
+	for p, par := range res.Params {
+		if par.Kind == "mean" {
+			continue
+		}
+		ch := make([][]float64, chains)
+		for c := range ch {
+			for d := 0; d < draws; d++ {
+				ch[c] = append(ch[c], res.Draws[c][d*np+p])
+			}
+		}
+		if e := diagnostics.ESSBulk(ch); e < minESS {
+			minESS, arg = e, par.Name
+		}
+	}
+	return minESS / res.Elapsed.Seconds(), arg, res.Elapsed.Seconds()
+}
+
+// TestPerfESS prints figure (b) of docs/performance.md: minimum bulk-ESS
+// per second, default sampler against plain Albert-Chib data
+// augmentation, on problems D and P. Run with LAGSTAR_PERF=1.
+func TestPerfESS(t *testing.T) {
+	if os.Getenv("LAGSTAR_PERF") == "" {
+		t.Skip("set LAGSTAR_PERF=1")
+	}
+	for _, p := range problems() {
+		if p.large {
+			continue
+		}
+		l := p.layout(t)
+		def, defArg, defSec := essPerSecond(t, l, model.ThresholdJoint, 2, 1000, 3000, 1, nil)
+		ac, acArg, acSec := essPerSecond(t, l, model.ThresholdAlbertChib, 2, 1000, 3000, 1, nil)
+		t.Logf("%s: default %.1f ESS/s (min at %s, %.1f s); plain Albert-Chib %.2f ESS/s (min at %s, %.1f s); ratio %.1f",
+			p.name, def, defArg, defSec, ac, acArg, acSec, def/ac)
+	}
+}
+
+// runWith is Run with an optional change to every chain's blocks.
+func runWith(l *Layout, update model.ThresholdUpdate, chains, warmup, draws int, seed uint64, tweak func([]Block)) (*Result, error) {
+	return runOpts(context.Background(), l, Options{Chains: chains, Warmup: warmup, Draws: draws, Seed: seed, ThresholdUpdate: update}, tweak)
+}
