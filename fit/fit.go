@@ -33,7 +33,12 @@ type Options struct {
 	Seed                  uint64
 	SeedSet               bool
 	Level                 float64 // central interval level; 0 means 0.95
-	Progress              func(chain, chains, done, total int)
+	// UntilConverged (or the model file's sampler.until_converged) extends
+	// sampling in rounds, doubling the draws, until report.Converged holds
+	// or MaxDraws per chain (0: the model file's, default 20000) is reached.
+	UntilConverged bool
+	MaxDraws       int
+	Progress       func(chain, chains, done, total int)
 }
 
 // Outcome is what a fit produced.
@@ -104,11 +109,33 @@ func Fit(ctx context.Context, o Options) (*Outcome, error) {
 		opt.Seed = NewSeed()
 	}
 	started := time.Now()
-	res, err := sampler.Run(ctx, l, opt)
+	runner, err := sampler.Start(ctx, l, opt)
 	if err != nil {
 		return nil, fmt.Errorf("sampling failed: %w", err)
 	}
+	res := runner.Result()
+	var rl *report.RunLength
+	if o.UntilConverged || ss.UntilConverged {
+		maxDraws := ss.MaxDraws
+		if o.MaxDraws > 0 {
+			maxDraws = o.MaxDraws
+		}
+		rl = &report.RunLength{Rounds: 1, MaxDraws: maxDraws}
+		for {
+			ok, _ := report.Converged(res)
+			rl.Converged = ok
+			if ok || res.Options.Draws >= maxDraws || ctx.Err() != nil || res.Incomplete {
+				break
+			}
+			if err := runner.Extend(ctx, min(res.Options.Draws, maxDraws-res.Options.Draws)); err != nil {
+				return nil, fmt.Errorf("sampling failed: %w", err)
+			}
+			rl.Rounds++
+		}
+		rl.DrawsPerChain = res.Options.Draws
+	}
 	sum := report.Build(res, o.Level, Version)
+	sum.RunLength = rl
 	rec := report.NewRunRecord(res, Version, started)
 	if o.OutDir != "" {
 		if err := report.WriteRun(o.OutDir, res, sum, rec); err != nil {

@@ -12,6 +12,7 @@ import (
 	"testing"
 
 	"github.com/lagstar/lagstar/examples"
+	"github.com/lagstar/lagstar/report"
 )
 
 // TestSameSeedSameDrawsAnyGOMAXPROCS runs the bundled example twice with
@@ -87,5 +88,34 @@ func TestCancelledRunIsIncomplete(t *testing.T) {
 	raw, err := os.ReadFile(filepath.Join(dir, "summary.json"))
 	if err != nil || !strings.Contains(string(raw), `"complete": false`) {
 		t.Errorf("summary.json should say complete: false (err %v)", err)
+	}
+}
+
+// TestUntilConverged: sampling is extended in doubling rounds until the
+// convergence rule holds or the cap is reached, and the summary says so.
+func TestUntilConverged(t *testing.T) {
+	m, d := examples.SleepDiary()
+	capped, err := Fit(context.Background(), Options{ModelPath: "m.yaml", ModelRaw: m, DataRaw: d, Chains: 2, Warmup: 50, Draws: 40,
+		Seed: 3, SeedSet: true, UntilConverged: true, MaxDraws: 100})
+	if err != nil {
+		t.Fatal(err)
+	}
+	rl := capped.Summary.RunLength
+	if rl == nil || rl.Rounds != 3 || rl.DrawsPerChain != 100 || rl.Converged {
+		t.Errorf("capped run: %+v, want 3 rounds (40, 80, 100 draws) and not converged", rl)
+	}
+	if capped.Result.Kept[0] != 100 {
+		t.Errorf("kept %d draws per chain, want 100", capped.Result.Kept[0])
+	}
+	done, err := Fit(context.Background(), Options{ModelPath: "m.yaml", ModelRaw: m, DataRaw: d, Chains: 4, Warmup: 300, Draws: 250,
+		Seed: 3, SeedSet: true, UntilConverged: true, MaxDraws: 8000})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rl := done.Summary.RunLength; rl == nil || !rl.Converged {
+		t.Fatalf("run did not converge within 8000 draws: %+v", rl)
+	}
+	if ok, worst := report.Converged(done.Result); !ok {
+		t.Errorf("summary says converged but %s", worst)
 	}
 }

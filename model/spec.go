@@ -103,6 +103,10 @@ type SamplerSpec struct {
 	Seed                  uint64
 	SeedSet               bool
 	ThresholdUpdate       ThresholdUpdate
+	// UntilConverged extends sampling in rounds until every parameter has
+	// R-hat <= 1.01 and bulk- and tail-ESS >= 400, up to MaxDraws per chain.
+	UntilConverged bool
+	MaxDraws       int
 }
 
 // schema lists the keys allowed at each level of the model file.
@@ -113,7 +117,7 @@ var schema = map[string][]string{
 	"between":  {"random_intercepts"},
 	"within":   {"lags", "residual_correlation", "over_time", "first_occasion"},
 	"means":    {"over_time"},
-	"sampler":  {"chains", "warmup", "draws", "seed", "threshold_update"},
+	"sampler":  {"chains", "warmup", "draws", "seed", "threshold_update", "until_converged", "max_draws"},
 }
 
 // ReadSpec reads and checks the model file at path. Every problem is an
@@ -145,7 +149,7 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 	sp.Data.Missing = []string{"", "NA"}
 	sp.Within.Lags = LagsCross
 	sp.Means.Free = true
-	sp.Sampler = SamplerSpec{Chains: 4, Warmup: 1000, Draws: 1000, ThresholdUpdate: ThresholdJoint}
+	sp.Sampler = SamplerSpec{Chains: 4, Warmup: 1000, Draws: 1000, ThresholdUpdate: ThresholdJoint, MaxDraws: 20000}
 	r := &reader{file: path, p: p, schema: schema}
 	top := r.mapping(root, "")
 	if top == nil {
@@ -232,6 +236,12 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 				p.addf(path, v.Line, "sampler.seed: expected a whole number from 0 to %d, got %q", uint64(1<<64-1), v.Value)
 			}
 			sp.Sampler.Seed, sp.Sampler.SeedSet = s, true
+		}
+		if v, ok := m["until_converged"]; ok {
+			sp.Sampler.UntilConverged = r.boolean(v, "sampler.until_converged")
+		}
+		if v, ok := m["max_draws"]; ok {
+			sp.Sampler.MaxDraws = r.intIn(v, "sampler.max_draws", 1, 10_000_000)
 		}
 		if v, ok := m["threshold_update"]; ok {
 			sp.Sampler.ThresholdUpdate = ThresholdUpdate(r.choice(v, "sampler.threshold_update", "joint", "albert-chib"))

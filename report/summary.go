@@ -84,14 +84,36 @@ type ModelInfo struct {
 
 // Summary is the content of summary.json.
 type Summary struct {
-	Program    string    `json:"program"`
-	Version    string    `json:"version"`
-	Seed       uint64    `json:"seed"`
-	Complete   bool      `json:"complete"`
-	Model      ModelInfo `json:"model"`
-	Parameters []Entry   `json:"parameters"`
-	Derived    []Entry   `json:"derived"`
-	Warnings   []string  `json:"warnings"`
+	Program    string     `json:"program"`
+	Version    string     `json:"version"`
+	Seed       uint64     `json:"seed"`
+	Complete   bool       `json:"complete"`
+	Model      ModelInfo  `json:"model"`
+	RunLength  *RunLength `json:"run_length,omitempty"`
+	Parameters []Entry    `json:"parameters"`
+	Derived    []Entry    `json:"derived"`
+	Warnings   []string   `json:"warnings"`
+}
+
+// RunLength records what run-until-converged did.
+type RunLength struct {
+	Rounds        int  `json:"rounds"`
+	DrawsPerChain int  `json:"draws_per_chain"`
+	MaxDraws      int  `json:"max_draws"`
+	Converged     bool `json:"converged"`
+}
+
+// Converged reports whether every parameter of res has R-hat <= RhatLimit
+// and bulk- and tail-ESS >= ESSLimit, and names the worst one otherwise.
+func Converged(res *sampler.Result) (bool, string) {
+	es := entries(res.Params, res.Draws, res.Kept, 0.95)
+	for _, e := range es {
+		r, b, t := float64(e.Rhat), float64(e.ESSBulk), float64(e.ESSTail)
+		if r > RhatLimit || b < ESSLimit || t < ESSLimit {
+			return false, fmt.Sprintf("%s (R-hat %.3f, bulk-ESS %.0f, tail-ESS %.0f)", e.Name, r, b, t)
+		}
+	}
+	return true, ""
 }
 
 // Thresholds of the convergence warnings (Vehtari et al. 2021, §4).

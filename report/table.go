@@ -41,6 +41,13 @@ func WriteTable(w io.Writer, s *Summary) error {
 	}
 	fmt.Fprintf(&b, "%s %s: %d persons, %d occasions, %d outcomes; %d chains x %d draws (seed %d), run %s\n",
 		s.Program, s.Version, s.Model.Persons, len(s.Model.Occasions), len(s.Model.Outcomes), s.Model.Chains, s.Model.Draws, s.Seed, status)
+	if rl := s.RunLength; rl != nil {
+		verdict := "converged"
+		if !rl.Converged {
+			verdict = "NOT converged at the cap"
+		}
+		fmt.Fprintf(&b, "run until converged: %d round(s), %d draws per chain (cap %d), %s\n", rl.Rounds, rl.DrawsPerChain, rl.MaxDraws, verdict)
+	}
 	head := fmt.Sprintf("  %-*s %9s %8s %9s %9s %7s %8s %8s\n", width, "parameter", "mean", "sd", lo, hi, "R-hat", "ESS-bulk", "ESS-tail")
 	for _, g := range tableGroups {
 		var rows []Entry

@@ -5,6 +5,10 @@ import (
 	"fmt"
 	"math"
 	"os"
+	"runtime"
+	"strconv"
+	"strings"
+	"time"
 	"testing"
 
 	"github.com/lagstar/lagstar/diagnostics"
@@ -154,4 +158,52 @@ func TestPerfESS(t *testing.T) {
 // runWith is Run with an optional change to every chain's blocks.
 func runWith(l *Layout, update model.ThresholdUpdate, chains, warmup, draws int, seed uint64, tweak func([]Block)) (*Result, error) {
 	return runOpts(context.Background(), l, Options{Chains: chains, Warmup: warmup, Draws: draws, Seed: seed, ThresholdUpdate: update}, tweak)
+}
+
+// TestPerfLarge fits problem L (three ordinal outcomes, 100,000 persons x
+// 10 waves) and reports wall time, sweeps per second and peak resident
+// memory (VmHWM of /proc/self/status). Run with LAGSTAR_PERF=1; the chain
+// settings come from LAGSTAR_PERF_CHAINS, _WARMUP and _DRAWS (defaults 2,
+// 250, 250).
+func TestPerfLarge(t *testing.T) {
+	if os.Getenv("LAGSTAR_PERF") == "" {
+		t.Skip("set LAGSTAR_PERF=1")
+	}
+	env := func(k string, d int) int {
+		if v, err := strconv.Atoi(os.Getenv(k)); err == nil {
+			return v
+		}
+		return d
+	}
+	chains, warmup, draws := env("LAGSTAR_PERF_CHAINS", 2), env("LAGSTAR_PERF_WARMUP", 250), env("LAGSTAR_PERF_DRAWS", 250)
+	p := problems()[2]
+	start := time.Now()
+	l := p.layout(t)
+	prep := time.Since(start)
+	res, err := Run(context.Background(), l, Options{Chains: chains, Warmup: warmup, Draws: draws, Seed: 1, ThresholdUpdate: model.ThresholdJoint})
+	if err != nil {
+		t.Fatal(err)
+	}
+	sweeps := float64(chains * (warmup + draws))
+	t.Logf("L: %d persons x %d waves x 3 outcomes (%d cells); simulate+load %.1f s; %d chains x %d sweeps in %.1f s (%.2f s per sweep per chain); peak RSS %s",
+		l.N, l.T, len(l.Panel.Y), prep.Seconds(), chains, warmup+draws, res.Elapsed.Seconds(), res.Elapsed.Seconds()*float64(min(chains, runtime.GOMAXPROCS(0)))/sweeps, peakRSS())
+	s := summarize(res)
+	for _, name := range []string{"threshold[a,1]", "autoregression[a]", "crosslag[b->a]", "ri_variance[c]", "innovation_correlation[a,b]"} {
+		t.Logf("  %-30s mean %.3f [%.3f, %.3f]", name, s[name].mean, s[name].lo, s[name].hi)
+	}
+}
+
+// peakRSS returns the process's peak resident set size from
+// /proc/self/status (Linux), or "unknown".
+func peakRSS() string {
+	raw, err := os.ReadFile("/proc/self/status")
+	if err != nil {
+		return "unknown"
+	}
+	for _, line := range strings.Split(string(raw), "\n") {
+		if strings.HasPrefix(line, "VmHWM:") {
+			return strings.TrimSpace(strings.TrimPrefix(line, "VmHWM:"))
+		}
+	}
+	return "unknown"
 }

@@ -91,82 +91,131 @@ func ChainSeeds(seed uint64, chains int) [][2]uint64 {
 // at the next sweep; the result then holds what was kept and is marked
 // Incomplete.
 func Run(ctx context.Context, l *Layout, opt Options) (*Result, error) {
-	return runOpts(ctx, l, opt, nil)
+	r, err := Start(ctx, l, opt)
+	if err != nil {
+		return nil, err
+	}
+	return r.Result(), nil
 }
 
-// runOpts is Run with an optional change to every chain's blocks (tests
-// and benchmarks compare variants of the sampler this way).
+// Runner holds every chain's state between rounds of sampling, so a run
+// can be extended (Extend) with draws identical to those of one longer run.
+type Runner struct {
+	l      *Layout
+	opt    Options
+	res    *Result
+	chains []*chain
+}
+
+type chain struct {
+	rng    *rand.Rand
+	st     *State
+	blocks []Block
+	dw     *DerivedWork
+	buf    []float64
+	dbuf   []float64
+	sweeps int // sweeps done, warm-up included
+}
+
+// Start creates the chains and runs warm-up plus opt.Draws sweeps.
+func Start(ctx context.Context, l *Layout, opt Options) (*Runner, error) {
+	return startOpts(ctx, l, opt, nil)
+}
+
+// startOpts is Start with an optional change to every chain's blocks
+// (tests and benchmarks compare variants of the sampler this way).
+func startOpts(ctx context.Context, l *Layout, opt Options, tweak func([]Block)) (*Runner, error) {
+	r := &Runner{l: l, opt: opt, res: &Result{Layout: l, Params: l.Params(), Derived: l.DerivedParams(), Options: opt,
+		Draws: make([][]float64, opt.Chains), DerivedDraws: make([][]float64, opt.Chains), Kept: make([]int, opt.Chains)}}
+	for c, seed := range ChainSeeds(opt.Seed, opt.Chains) {
+		rng := rand.New(rand.NewPCG(seed[0], seed[1]))
+		ch := &chain{rng: rng, st: NewState(l, rng), blocks: Blocks(l, opt.ThresholdUpdate), dw: NewDerivedWork(l)}
+		if tweak != nil {
+			tweak(ch.blocks)
+		}
+		r.chains = append(r.chains, ch)
+		r.res.Draws[c] = make([]float64, 0, opt.Draws*len(r.res.Params))
+		r.res.DerivedDraws[c] = make([]float64, 0, opt.Draws*len(r.res.Derived))
+	}
+	return r, r.run(ctx, opt.Warmup+opt.Draws)
+}
+
+// runOpts is Run with a change to the blocks.
 func runOpts(ctx context.Context, l *Layout, opt Options, tweak func([]Block)) (*Result, error) {
+	r, err := startOpts(ctx, l, opt, tweak)
+	if err != nil {
+		return nil, err
+	}
+	return r.Result(), nil
+}
+
+// Extend runs draws more kept sweeps on every chain.
+func (r *Runner) Extend(ctx context.Context, draws int) error {
+	r.res.Options.Draws += draws
+	return r.run(ctx, draws)
+}
+
+// Result returns the draws so far. It shares storage with the runner.
+func (r *Runner) Result() *Result { return r.res }
+
+// run advances every chain by n sweeps in parallel.
+func (r *Runner) run(ctx context.Context, n int) error {
 	start := time.Now()
-	res := &Result{Layout: l, Params: l.Params(), Derived: l.DerivedParams(), Options: opt,
-		Draws: make([][]float64, opt.Chains), DerivedDraws: make([][]float64, opt.Chains), Kept: make([]int, opt.Chains)}
-	seeds := ChainSeeds(opt.Seed, opt.Chains)
-	errs := make([]error, opt.Chains)
+	errs := make([]error, len(r.chains))
 	var wg sync.WaitGroup
-	for c := 0; c < opt.Chains; c++ {
+	for c := range r.chains {
 		wg.Add(1)
 		go func(c int) {
 			defer wg.Done()
-			errs[c] = runChain(ctx, l, opt, c, seeds[c], res, tweak)
+			errs[c] = r.advance(ctx, c, n)
 		}(c)
 	}
 	wg.Wait()
-	res.Elapsed = time.Since(start)
+	r.res.Elapsed += time.Since(start)
 	for c, err := range errs {
 		if err != nil {
-			return nil, fmt.Errorf("chain %d: %w", c+1, err)
+			return fmt.Errorf("chain %d: %w", c+1, err)
 		}
 	}
-	for _, k := range res.Kept {
-		if k < opt.Draws {
-			res.Incomplete = true
+	r.res.Incomplete = false
+	for _, k := range r.res.Kept {
+		if k < r.res.Options.Draws {
+			r.res.Incomplete = true
 		}
 	}
-	return res, nil
+	return nil
 }
 
-func runChain(ctx context.Context, l *Layout, opt Options, c int, seed [2]uint64, res *Result, tweak func([]Block)) error {
-	rng := rand.New(rand.NewPCG(seed[0], seed[1]))
-	st := NewState(l, rng)
-	blocks := Blocks(l, opt.ThresholdUpdate)
-	if tweak != nil {
-		tweak(blocks)
-	}
-	np, nd := len(res.Params), len(res.Derived)
-	draws := make([]float64, 0, opt.Draws*np)
-	derived := make([]float64, 0, opt.Draws*nd)
-	buf := make([]float64, 0, np)
-	dbuf := make([]float64, 0, nd)
-	dw := NewDerivedWork(l)
-	total := opt.Warmup + opt.Draws
-	for sweep := 0; sweep < total; sweep++ {
+// advance runs chain c for n more sweeps, keeping those after warm-up.
+func (r *Runner) advance(ctx context.Context, c, n int) error {
+	ch := r.chains[c]
+	res := r.res
+	end := ch.sweeps + n
+	total := r.opt.Warmup + res.Options.Draws
+	for ; ch.sweeps < end; ch.sweeps++ {
 		if ctx.Err() != nil {
 			break
 		}
-		st.Warmup = sweep < opt.Warmup
-		if err := Sweep(st, blocks, rng); err != nil {
+		sweep := ch.sweeps
+		ch.st.Warmup = sweep < r.opt.Warmup
+		if err := Sweep(ch.st, ch.blocks, ch.rng); err != nil {
 			return fmt.Errorf("sweep %d: %w", sweep+1, err)
 		}
-		if sweep >= opt.Warmup {
-			buf = st.Extract(buf)
-			dbuf = st.ExtractDerived(dbuf, dw)
-			for _, v := range buf {
+		if sweep >= r.opt.Warmup {
+			ch.buf = ch.st.Extract(ch.buf)
+			ch.dbuf = ch.st.ExtractDerived(ch.dbuf, ch.dw)
+			for _, v := range ch.buf {
 				if math.IsNaN(v) || math.IsInf(v, 0) {
 					return fmt.Errorf("sweep %d: a parameter is not finite", sweep+1)
 				}
 			}
-			draws = append(draws, buf...)
-			derived = append(derived, dbuf...)
+			res.Draws[c] = append(res.Draws[c], ch.buf...)
+			res.DerivedDraws[c] = append(res.DerivedDraws[c], ch.dbuf...)
+			res.Kept[c]++
 		}
-		if opt.Progress != nil {
-			opt.Progress(c, opt.Chains, sweep+1, total)
+		if r.opt.Progress != nil {
+			r.opt.Progress(c, r.opt.Chains, sweep+1, total)
 		}
-	}
-	res.Draws[c] = draws
-	res.DerivedDraws[c] = derived
-	res.Kept[c] = len(draws) / max(np, 1)
-	if np == 0 {
-		res.Kept[c] = len(derived) / max(nd, 1)
 	}
 	return nil
 }

@@ -1,7 +1,9 @@
 package sampler
 
 import (
+	"context"
 	"math"
+	"slices"
 	"testing"
 )
 
@@ -39,5 +41,33 @@ func TestWQuadMatchesDirect(t *testing.T) {
 				t.Errorf("%s step %d: -1/2 sum WQuad = %.10g, direct %.10g", p.name, step, got, want)
 			}
 		}
+	}
+}
+
+// TestExtendEqualsLongerRun: a run extended by 30 draws gives exactly the
+// draws of one run with 30 more draws.
+func TestExtendEqualsLongerRun(t *testing.T) {
+	l := problems()[1].layout(t)
+	opt := Options{Chains: 2, Warmup: 10, Draws: 20, Seed: 5}
+	r, err := Start(context.Background(), l, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := r.Extend(context.Background(), 30); err != nil {
+		t.Fatal(err)
+	}
+	opt.Draws = 50
+	long, err := Run(context.Background(), l, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := r.Result()
+	for c := range long.Draws {
+		if got.Kept[c] != 50 || !slices.Equal(got.Draws[c], long.Draws[c]) || !slices.Equal(got.DerivedDraws[c], long.DerivedDraws[c]) {
+			t.Fatalf("chain %d: extended run (kept %d) differs from the longer run", c, got.Kept[c])
+		}
+	}
+	if got.Incomplete || got.Options.Draws != 50 {
+		t.Errorf("extended result: incomplete %v, draws %d", got.Incomplete, got.Options.Draws)
 	}
 }

@@ -25,7 +25,8 @@ up to 42 days how rested they felt (1-5) and whether they had a headache
 			}
 			m, d := examples.SleepDiary()
 			fo := fit.Options{ModelPath: "sleepdiary/model.yaml", ModelRaw: m, DataRaw: d, OutDir: o.out,
-				Chains: o.chains, Warmup: o.warmup, Draws: o.draws, Seed: o.seed, SeedSet: cmd.Flags().Changed("seed"), Level: o.level}
+				Chains: o.chains, Warmup: o.warmup, Draws: o.draws, Seed: o.seed, SeedSet: cmd.Flags().Changed("seed"), Level: o.level,
+				UntilConverged: o.untilConverged, MaxDraws: o.maxDraws}
 			return runFit(cmd, fo, o, stdout, stderr)
 		},
 	}

@@ -22,6 +22,8 @@ type fitOptions struct {
 	level                 float64
 	format                string
 	quiet                 bool
+	untilConverged        bool
+	maxDraws              int
 	intro                 string // printed before the table (demo)
 }
 
@@ -45,7 +47,7 @@ folder. Flags override the model file's sampler settings.`,
 				out = base + "-fit"
 			}
 			fo := fit.Options{ModelPath: args[0], OutDir: out, Chains: o.chains, Warmup: o.warmup, Draws: o.draws,
-				Seed: o.seed, SeedSet: cmd.Flags().Changed("seed"), Level: o.level}
+				Seed: o.seed, SeedSet: cmd.Flags().Changed("seed"), Level: o.level, UntilConverged: o.untilConverged, MaxDraws: o.maxDraws}
 			return runFit(cmd, fo, o, stdout, stderr)
 		},
 	}
@@ -63,6 +65,8 @@ func (o *fitOptions) bind(cmd *cobra.Command) {
 	f.Float64Var(&o.level, "level", 0.95, "level of the central posterior intervals")
 	f.StringVar(&o.format, "format", "text", "what to print: text (table) or json (summary)")
 	f.BoolVar(&o.quiet, "quiet", false, "print no progress")
+	f.BoolVar(&o.untilConverged, "until-converged", false, "extend sampling in rounds until R-hat <= 1.01 and bulk/tail ESS >= 400 for every parameter")
+	f.IntVar(&o.maxDraws, "max-draws", 0, "cap on draws per chain for --until-converged (default from the model file, else 20000)")
 }
 
 func (o *fitOptions) validate() error {
@@ -75,6 +79,8 @@ func (o *fitOptions) validate() error {
 		return &usageError{fmt.Errorf("--draws: expected a whole number >= 1, got %d", o.draws)}
 	case !(o.level > 0 && o.level < 1):
 		return &usageError{fmt.Errorf("--level: expected a number between 0 and 1, got %g", o.level)}
+	case o.maxDraws < 0:
+		return &usageError{fmt.Errorf("--max-draws: expected a whole number >= 1, got %d", o.maxDraws)}
 	case o.format != "text" && o.format != "json":
 		return &usageError{fmt.Errorf("--format: expected text or json, got %q", o.format)}
 	}
