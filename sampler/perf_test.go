@@ -8,8 +8,8 @@ import (
 	"runtime"
 	"strconv"
 	"strings"
-	"time"
 	"testing"
+	"time"
 
 	"github.com/lagstar/lagstar/diagnostics"
 	"github.com/lagstar/lagstar/model"
