@@ -22,8 +22,8 @@ type Block interface {
 // 1993). Missing cells are drawn without truncation (missing at random).
 // Reads B, Nu, Tau and the precision caches; writes Ystar.
 type LatentBlock struct {
-	w     []float64
-	v, sv []float64 // J x J scratch for WQuad
+	// Per shard: path scratch, J x J scratch and partial sums of WQuad.
+	w, v, sv, wq [][]float64
 	// record, when set (benchmarks only), receives every standardized
 	// truncation interval drawn from.
 	record func(a, b float64)
@@ -31,22 +31,44 @@ type LatentBlock struct {
 
 // NewLatentBlock allocates the block's workspace.
 func NewLatentBlock(l *Layout) *LatentBlock {
-	return &LatentBlock{w: make([]float64, l.MaxLen*l.J), v: make([]float64, l.J*l.J), sv: make([]float64, l.J*l.J)}
+	JJ := l.J * l.J
+	return &LatentBlock{w: shardBufs(l, l.MaxLen*l.J), v: shardBufs(l, JJ), sv: shardBufs(l, JJ), wq: shardBufs(l, JJ)}
 }
 
 // Name implements Block.
 func (*LatentBlock) Name() string { return "latent responses" }
 
-// Update implements Block.
-func (lb *LatentBlock) Update(st *State, rng *rand.Rand) error {
+// Update implements Block. Persons are updated shard by shard, each shard
+// with its own random stream (shard.go).
+func (lb *LatentBlock) Update(st *State, _ *rand.Rand) error {
+	l := st.L
+	if len(l.ShardStart) == 2 {
+		lb.updateShard(st, 0, 0, l.N)
+	} else {
+		forShards(l, func(s, lo, hi int) { lb.updateShard(st, s, lo, hi) })
+	}
+	for k := range st.WQuad {
+		st.WQuad[k] = 0
+		for _, part := range lb.wq {
+			st.WQuad[k] += part[k]
+		}
+	}
+	symmetrize(st.WQuad, l.J)
+	st.WQuadOK = true
+	st.Mom.ok = false
+	return nil
+}
+
+// updateShard draws the latent responses of persons lo..hi-1.
+func (lb *LatentBlock) updateShard(st *State, s, lo, hi int) {
 	l := st.L
 	J := l.J
 	JJ := J * J
-	w := lb.w
-	for k := range st.WQuad {
-		st.WQuad[k] = 0
+	w, rng, wq := lb.w[s], st.ShardRng[s], lb.wq[s]
+	for k := range wq {
+		wq[k] = 0
 	}
-	for i := 0; i < l.N; i++ {
+	for i := lo; i < hi; i++ {
 		off := l.Panel.Offset[i]
 		Ti := l.Panel.Len[i]
 		st.fillW(w, i, st.Ystar)
@@ -120,11 +142,8 @@ func (lb *LatentBlock) Update(st *State, rng *rand.Rand) error {
 				st.Ystar[off+c+j] = w[c+j] + st.Nu[c+j] + bj
 			}
 		}
-		accumulateWQuad(st, st.WQuad, w, Ti, lb.v, lb.sv)
+		accumulateWQuad(st, wq, w, Ti, lb.v[s], lb.sv[s])
 	}
-	symmetrize(st.WQuad, J)
-	st.WQuadOK = true
-	return nil
 }
 
 // accumulateWQuad adds one person's terms of State.WQuad (lower triangle
@@ -191,7 +210,8 @@ type InterceptBlock struct {
 	cum   []float64 // T blocks: precision for a person with t+1 occasions
 	chol  []float64 // T blocks: Cholesky factors of cum
 	psiIn []float64
-	e, h  []float64
+	e, h  [][]float64 // per shard
+	r     [][]float64 // per shard
 	tmp   []float64
 }
 
@@ -199,14 +219,14 @@ type InterceptBlock struct {
 func NewInterceptBlock(l *Layout) *InterceptBlock {
 	J, T := l.J, l.T
 	return &InterceptBlock{g: make([]float64, T*J*J), cum: make([]float64, T*J*J), chol: make([]float64, T*J*J),
-		psiIn: make([]float64, J*J), e: make([]float64, l.MaxLen*J), h: make([]float64, J), tmp: make([]float64, 3*J*J)}
+		psiIn: make([]float64, J*J), e: shardBufs(l, l.MaxLen*J), h: shardBufs(l, J), r: shardBufs(l, J), tmp: make([]float64, 3*J*J)}
 }
 
 // Name implements Block.
 func (*InterceptBlock) Name() string { return "random intercepts" }
 
 // Update implements Block.
-func (ib *InterceptBlock) Update(st *State, rng *rand.Rand) error {
+func (ib *InterceptBlock) Update(st *State, _ *rand.Rand) error {
 	l := st.L
 	J, T := l.J, l.T
 	JJ := J * J
@@ -244,9 +264,23 @@ func (ib *InterceptBlock) Update(st *State, rng *rand.Rand) error {
 		}
 	}
 	st.WQuadOK = false
-	e, h := ib.e, ib.h
-	r := ib.tmp[2*JJ : 2*JJ+J]
-	for i := 0; i < l.N; i++ {
+	st.Mom.ok = false
+	if len(l.ShardStart) == 2 {
+		ib.drawShard(st, 0, 0, l.N)
+	} else {
+		forShards(l, func(s, lo, hi int) { ib.drawShard(st, s, lo, hi) })
+	}
+	return nil
+}
+
+// drawShard draws the random intercepts of persons lo..hi-1 with shard s's
+// stream and scratch.
+func (ib *InterceptBlock) drawShard(st *State, s, lo, hi int) {
+	l := st.L
+	J := l.J
+	JJ := J * J
+	e, h, r, rng := ib.e[s], ib.h[s], ib.r[s], st.ShardRng[s]
+	for i := lo; i < hi; i++ {
 		off := l.Panel.Offset[i]
 		Ti := l.Panel.Len[i]
 		for c := 0; c < Ti*J; c++ {
@@ -279,7 +313,6 @@ func (ib *InterceptBlock) Update(st *State, rng *rand.Rand) error {
 		dense.SolveUpperT(ch, J, h)
 		copy(st.B[i*J:i*J+J], h)
 	}
-	return nil
 }
 
 // PsiBlock draws the random-intercept covariance from its conjugate

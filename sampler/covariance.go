@@ -23,7 +23,6 @@ type CovBlock struct {
 	stats   [][]float64 // per group: S
 	n       []float64
 	s00     []float64
-	w, z    []float64
 	sig     []float64
 	work    []float64
 	logStep [][]float64 // per group: J sd steps then J*J correlation steps
@@ -35,7 +34,7 @@ type CovBlock struct {
 func NewCovBlock(l *Layout) *CovBlock {
 	J := l.J
 	cb := &CovBlock{n: make([]float64, len(l.Groups)), s00: make([]float64, J*J),
-		w: make([]float64, l.MaxLen*J), z: make([]float64, J), sig: make([]float64, J*J),
+		sig:  make([]float64, J*J),
 		work: make([]float64, 8*J*J+2*J), rounds: 3}
 	for range l.Groups {
 		cb.stats = append(cb.stats, make([]float64, J*J))
@@ -63,37 +62,36 @@ func (cb *CovBlock) Update(st *State, rng *rand.Rand) error {
 		}
 		cb.n[g] = 0
 	}
-	for k := range cb.s00 {
-		cb.s00[k] = 0
-	}
-	z := cb.z
-	for i := 0; i < l.N; i++ {
-		st.fillW(cb.w, i, st.Ystar)
-		w := cb.w
-		for t := 0; t < l.Panel.Len[i]; t++ {
-			wt := w[t*J : (t+1)*J]
-			if t == 0 {
-				copy(z, wt)
-			} else {
-				a := st.A[t*JJ : (t+1)*JJ]
-				for r := 0; r < J; r++ {
-					v := wt[r]
-					for c := 0; c < J; c++ {
-						v -= a[r*J+c] * w[(t-1)*J+c]
-					}
-					z[r] = v
-				}
+	st.ensureMoments()
+	m := st.Mom
+	copy(cb.s00, m.Stt[:JJ])
+	t1, t2 := cb.work[:JJ], cb.work[JJ:2*JJ]
+	for t := 0; t < l.T; t++ {
+		g := l.GroupOf[t]
+		if g < 0 {
+			continue // stationary first occasion: cb.s00
+		}
+		s := cb.stats[g]
+		cb.n[g] += float64(l.CountAt[t])
+		stt := m.Stt[t*JJ : (t+1)*JJ]
+		if t == 0 {
+			for k := range s {
+				s[k] += stt[k]
 			}
-			g := l.GroupOf[t]
-			s := cb.s00
-			if g >= 0 {
-				s = cb.stats[g]
-				cb.n[g]++
-			}
-			for a := 0; a < J; a++ {
-				for b := 0; b < J; b++ {
-					s[a*J+b] += z[a] * z[b]
+			continue
+		}
+		// sum zeta zeta' = Stt - A S01' - S01 A' + A S11 A'.
+		a := st.A[t*JJ : (t+1)*JJ]
+		s01, s11 := m.S01[t*JJ:(t+1)*JJ], m.S11[t*JJ:(t+1)*JJ]
+		dense.MulBT(t1, a, s01, J, J, J) // A S01'
+		dense.Mul(t2, a, s11, J, J, J)   // A S11
+		for r := 0; r < J; r++ {
+			for c := 0; c < J; c++ {
+				v := stt[r*J+c] - t1[r*J+c] - t1[c*J+r]
+				for k := 0; k < J; k++ {
+					v += t2[r*J+k] * a[c*J+k]
 				}
+				s[r*J+c] += v
 			}
 		}
 	}

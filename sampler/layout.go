@@ -42,6 +42,9 @@ type Layout struct {
 	// CountAt[t] is the number of persons observed up to at least grid occasion t.
 	CountAt []int
 	MaxLen  int
+	// ShardStart[s] is the first person of shard s (see shard.go); the
+	// last entry is N.
+	ShardStart []int
 }
 
 // CovGroup is one free covariance matrix: the first occasion's or an
@@ -144,6 +147,7 @@ func NewLayout(sp *model.Spec, pan *model.Panel, pr priors.Set) *Layout {
 	default:
 		l.GroupOf[0] = add(CovGroup{Initial: true, Occ: []int{0}, FreeSD: freeSD, Corr: corr})
 	}
+	l.ShardStart = shardBounds(l.N)
 	l.CountAt = make([]int, T)
 	for _, n := range pan.Len {
 		l.MaxLen = max(l.MaxLen, n)

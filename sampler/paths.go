@@ -20,7 +20,6 @@ type PathBlock struct {
 	s11, s01, s00 []float64
 	prec, h, a    []float64
 	cur, old      []float64
-	w             []float64
 	work          []float64
 	Accepted      int
 	Proposed      int
@@ -30,7 +29,7 @@ type PathBlock struct {
 func NewPathBlock(l *Layout) *PathBlock {
 	J := l.J
 	pb := &PathBlock{s11: make([]float64, l.T*J*J), s01: make([]float64, l.T*J*J), s00: make([]float64, J*J),
-		w: make([]float64, l.MaxLen*J), cur: make([]float64, J*J), old: make([]float64, J*J),
+		cur: make([]float64, J*J), old: make([]float64, J*J),
 		work: make([]float64, 8*J*J)}
 	for k, f := range l.PathFree {
 		if f {
@@ -50,33 +49,17 @@ func (pb *PathBlock) Update(st *State, rng *rand.Rand) error {
 	l := st.L
 	J, T := l.J, l.T
 	JJ := J * J
-	for k := range pb.s11 {
-		pb.s11[k], pb.s01[k] = 0, 0
-	}
-	for k := range pb.s00 {
-		pb.s00[k] = 0
-	}
-	for i := 0; i < l.N; i++ {
-		st.fillW(pb.w, i, st.Ystar)
-		w := pb.w
-		for a := 0; a < J; a++ {
-			for b := 0; b < J; b++ {
-				pb.s00[a*J+b] += w[a] * w[b]
-			}
-		}
-		for t := 1; t < l.Panel.Len[i]; t++ {
-			slot := t
-			if !l.PathsFree {
-				slot = 1
-			}
-			s11 := pb.s11[slot*JJ : (slot+1)*JJ]
-			s01 := pb.s01[slot*JJ : (slot+1)*JJ]
-			wp, wt := w[(t-1)*J:t*J], w[t*J:(t+1)*J]
-			for a := 0; a < J; a++ {
-				for b := 0; b < J; b++ {
-					s11[a*J+b] += wp[a] * wp[b]
-					s01[a*J+b] += wt[a] * wp[b]
-				}
+	st.ensureMoments()
+	m := st.Mom
+	copy(pb.s00, m.Stt[:JJ])
+	copy(pb.s11, m.S11)
+	copy(pb.s01, m.S01)
+	if !l.PathsFree {
+		// Equal paths: pool occasions 1..T-1 into slot 1.
+		for t := 2; t < T; t++ {
+			for k := 0; k < JJ; k++ {
+				pb.s11[JJ+k] += m.S11[t*JJ+k]
+				pb.s01[JJ+k] += m.S01[t*JJ+k]
 			}
 		}
 	}

@@ -46,6 +46,16 @@ type State struct {
 	WQuad   []float64
 	WQuadOK bool
 
+	// Mom holds the within paths' second moments (moments.go); blocks that
+	// change Ystar, Nu or B mark it stale.
+	Mom *Moments
+
+	// ShardRng holds one random stream per shard of persons (shard.go).
+	ShardRng []*rand.Rand
+	// Per-shard scratch and partial sums of withinQuad.
+	quadW, quadZ [][]float64
+	quadPart     []float64
+
 	Warmup bool // adaptation allowed
 	work   []float64
 }
@@ -96,6 +106,9 @@ func NewState(l *Layout, rng *rand.Rand) *State {
 		}
 		s.Tau[j] = tau
 	}
+	s.ShardRng = shardRngs(rng, len(l.ShardStart)-1)
+	s.Mom = newMoments(l)
+	s.quadW, s.quadZ, s.quadPart = shardBufs(l, l.MaxLen*J), shardBufs(l, J), make([]float64, len(l.ShardStart)-1)
 	for i := range s.Mean {
 		s.Mean[i] = 0.2 * (rng.Float64() - 0.5)
 	}
@@ -175,6 +188,7 @@ func (s *State) interval(j, k int) (float64, float64) {
 // SyncNu recomputes the occasion means Nu from the free mean parameters Mean.
 func (s *State) SyncNu() {
 	s.WQuadOK = false
+	s.Mom.ok = false
 	for i, idx := range s.L.MeanIdx {
 		if idx >= 0 {
 			s.Nu[i] = s.Mean[idx]
@@ -283,14 +297,29 @@ func (s *State) fillW(w []float64, i int, ys []float64) {
 
 // withinQuad returns -1/2 sum_t zeta_t' Sigma_t^{-1} zeta_t over all persons
 // for latent responses ys: the part of the log density of the within paths
-// that depends on ys (the log-determinant terms do not).
-func (s *State) withinQuad(ys, w []float64) float64 {
+// that depends on ys (the log-determinant terms do not). Shards run in
+// parallel and are summed in shard order.
+func (s *State) withinQuad(ys []float64) float64 {
+	l := s.L
+	if len(l.ShardStart) == 2 {
+		s.quadShard(ys, 0, 0, l.N)
+	} else {
+		forShards(l, func(sh, lo, hi int) { s.quadShard(ys, sh, lo, hi) })
+	}
+	total := 0.0
+	for _, v := range s.quadPart {
+		total += v
+	}
+	return -0.5 * total
+}
+
+func (s *State) quadShard(ys []float64, sh, lo, hi int) {
 	l := s.L
 	J := l.J
 	JJ := J * J
-	z := s.work[5*JJ : 5*JJ+J]
+	w, z := s.quadW[sh], s.quadZ[sh]
 	total := 0.0
-	for i := 0; i < l.N; i++ {
+	for i := lo; i < hi; i++ {
 		s.fillW(w, i, ys)
 		for t := 0; t < l.Panel.Len[i]; t++ {
 			wt := w[t*J : t*J+J]
@@ -310,7 +339,7 @@ func (s *State) withinQuad(ys, w []float64) float64 {
 			total += dense.Quad(s.SigInv[t*JJ:(t+1)*JJ], z, J)
 		}
 	}
-	return -0.5 * total
+	s.quadPart[sh] = total
 }
 
 // setPaths writes the J x J block a into A at every occasion it applies to.

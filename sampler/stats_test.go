@@ -36,7 +36,7 @@ func TestWQuadMatchesDirect(t *testing.T) {
 				got += x
 			}
 			got *= -0.5
-			want := st.withinQuad(st.Ystar, make([]float64, l.MaxLen*l.J))
+			want := st.withinQuad(st.Ystar)
 			if math.Abs(got-want) > 1e-9*math.Abs(want) {
 				t.Errorf("%s step %d: -1/2 sum WQuad = %.10g, direct %.10g", p.name, step, got, want)
 			}
@@ -69,5 +69,56 @@ func TestExtendEqualsLongerRun(t *testing.T) {
 	}
 	if got.Incomplete || got.Options.Draws != 50 {
 		t.Errorf("extended result: incomplete %v, draws %d", got.Incomplete, got.Options.Draws)
+	}
+}
+
+// TestMomentsGiveInnovationSums: the innovation sums the covariance block
+// derives from the shared moments equal a direct pass over every zeta.
+func TestMomentsGiveInnovationSums(t *testing.T) {
+	l := problems()[1].layout(t)
+	rng := newRand(4)
+	st := NewState(l, rng)
+	blocks := Blocks(l, "joint")
+	for range 5 {
+		Sweep(st, blocks, rng)
+	}
+	J := l.J
+	JJ := J * J
+	direct := make([][]float64, len(l.Groups))
+	for g := range direct {
+		direct[g] = make([]float64, JJ)
+	}
+	w := make([]float64, l.MaxLen*J)
+	z := make([]float64, J)
+	for i := 0; i < l.N; i++ {
+		st.fillW(w, i, st.Ystar)
+		for tt := 0; tt < l.Panel.Len[i]; tt++ {
+			for r := 0; r < J; r++ {
+				z[r] = w[tt*J+r]
+				if tt > 0 {
+					for c := 0; c < J; c++ {
+						z[r] -= st.A[tt*JJ+r*J+c] * w[(tt-1)*J+c]
+					}
+				}
+			}
+			g := l.GroupOf[tt]
+			for a := 0; a < J; a++ {
+				for b := 0; b < J; b++ {
+					direct[g][a*J+b] += z[a] * z[b]
+				}
+			}
+		}
+	}
+	cb := NewCovBlock(l)
+	cb.rounds = 0 // statistics only
+	if err := cb.Update(st, rng); err != nil {
+		t.Fatal(err)
+	}
+	for g := range direct {
+		for k := range direct[g] {
+			if math.Abs(cb.stats[g][k]-direct[g][k]) > 1e-8*(1+math.Abs(direct[g][k])) {
+				t.Errorf("group %d entry %d: from moments %.10g, direct %.10g", g, k, cb.stats[g][k], direct[g][k])
+			}
+		}
 	}
 }

@@ -29,7 +29,6 @@ type ThresholdBlock struct {
 	tries    []int
 	prop     []float64
 	ys       []float64
-	w        []float64
 	lo, hi   []float64
 	count    []int
 	cellsOfJ [][]int // observed cells of each categorical outcome
@@ -39,7 +38,7 @@ type ThresholdBlock struct {
 func NewThresholdBlock(l *Layout, update model.ThresholdUpdate) *ThresholdBlock {
 	tb := &ThresholdBlock{joint: update != model.ThresholdAlbertChib, moves: 1,
 		logStep: make([]float64, l.J), tries: make([]int, l.J),
-		ys: make([]float64, len(l.Panel.Y)), w: make([]float64, l.MaxLen*l.J),
+		ys:   make([]float64, len(l.Panel.Y)),
 		prop: make([]float64, 12), lo: make([]float64, 12), hi: make([]float64, 12), count: make([]int, 12),
 		cellsOfJ: make([][]int, l.J)}
 	for j := range tb.logStep {
@@ -69,10 +68,10 @@ func (tb *ThresholdBlock) Update(st *State, rng *rand.Rand) error {
 			continue
 		}
 		tb.albertChib(st, rng, j)
-		// A binary outcome's joint move is a shift of all its latent
-		// responses with the threshold; with random intercepts the exact
-		// location move already makes it.
-		if tb.joint && !(l.K[j] == 2 && l.RI) {
+		// For a binary outcome the joint move shifts all its latent
+		// responses with the threshold (the within part moves against the
+		// random intercepts, a direction the location move does not take).
+		if tb.joint {
 			// tb.ys mirrors Ystar outside the cells being proposed; cur is
 			// the within-path log density at the current state.
 			copy(tb.ys, st.Ystar)
@@ -83,12 +82,14 @@ func (tb *ThresholdBlock) Update(st *State, rng *rand.Rand) error {
 				}
 				cur *= -0.5
 			} else {
-				cur = st.withinQuad(st.Ystar, tb.w)
+				cur = st.withinQuad(st.Ystar)
 			}
 			for range tb.moves {
 				next := tb.groupMove(st, rng, j, cur)
 				if next != cur {
-					st.WQuadOK = false // latent responses of j moved
+					// Latent responses of j moved.
+					st.WQuadOK = false
+					st.Mom.ok = false
 				}
 				cur = next
 			}
@@ -166,7 +167,7 @@ func (tb *ThresholdBlock) groupMove(st *State, rng *rand.Rand, j int, cur float6
 			}
 			tb.ys[c] = v
 		}
-		next := st.withinQuad(tb.ys, tb.w)
+		next := st.withinQuad(tb.ys)
 		logr := next - cur
 		sd := l.Priors.ThresholdSD
 		for k := 0; k < nt; k++ {

@@ -65,7 +65,7 @@ means: {over_time: equal}
 				t.Fatal(err)
 			}
 			out, err := fit.Fit(context.Background(), fit.Options{ModelPath: "testdata/" + c.name + ".yaml", ModelRaw: []byte(c.model), DataRaw: data,
-				Chains: 4, Warmup: 1500, Draws: 5000, Seed: 2026, SeedSet: true})
+				Chains: 4, Warmup: 1500, Draws: 8000, Seed: 2026, SeedSet: true})
 			if err != nil {
 				t.Fatal(err)
 			}
