@@ -15,13 +15,13 @@ import (
 	"github.com/lagstar/lagstar/report"
 )
 
-// TestSameSeedSameDrawsAnyGOMAXPROCS runs the bundled example twice with
-// one seed, at GOMAXPROCS 1 and 2, and requires byte-identical draws.csv.
+// TestSameSeedSameDrawsAnyGOMAXPROCS runs the bundled example three times with
+// one seed, at GOMAXPROCS 1, 2 and 8, and requires byte-identical draws.csv.
 func TestSameSeedSameDrawsAnyGOMAXPROCS(t *testing.T) {
 	m, d := examples.SleepDiary()
 	var outs [][]byte
 	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
-	for _, procs := range []int{1, 2} {
+	for _, procs := range []int{1, 2, 8} {
 		runtime.GOMAXPROCS(procs)
 		dir := t.TempDir()
 		_, err := Fit(context.Background(), Options{ModelPath: "sleepdiary/model.yaml", ModelRaw: m, DataRaw: d,
@@ -35,8 +35,10 @@ func TestSameSeedSameDrawsAnyGOMAXPROCS(t *testing.T) {
 		}
 		outs = append(outs, b)
 	}
-	if !bytes.Equal(outs[0], outs[1]) {
-		t.Fatalf("draws.csv differs between GOMAXPROCS 1 and 2 with the same seed")
+	for k := 1; k < len(outs); k++ {
+		if !bytes.Equal(outs[0], outs[k]) {
+			t.Fatalf("draws.csv differs between GOMAXPROCS 1 and run %d with the same seed", k+1)
+		}
 	}
 	if len(outs[0]) < 1000 {
 		t.Fatalf("draws.csv suspiciously short: %d bytes", len(outs[0]))

@@ -3,6 +3,7 @@ package sampler
 import (
 	"context"
 	"math"
+	"runtime"
 	"slices"
 	"testing"
 )
@@ -119,6 +120,33 @@ func TestMomentsGiveInnovationSums(t *testing.T) {
 			if math.Abs(cb.stats[g][k]-direct[g][k]) > 1e-8*(1+math.Abs(direct[g][k])) {
 				t.Errorf("group %d entry %d: from moments %.10g, direct %.10g", g, k, cb.stats[g][k], direct[g][k])
 			}
+		}
+	}
+}
+
+// TestShardedDrawsIndependentOfCores: a panel large enough for several
+// shards gives identical draws at GOMAXPROCS 1, 2 and 8.
+func TestShardedDrawsIndependentOfCores(t *testing.T) {
+	p := problems()[1]
+	p.n = 3 * personsPerShard
+	l := p.layout(t)
+	if len(l.ShardStart) < 3 {
+		t.Fatalf("want several shards, got %d", len(l.ShardStart)-1)
+	}
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+	var first []float64
+	for _, procs := range []int{1, 2, 8} {
+		runtime.GOMAXPROCS(procs)
+		res, err := Run(context.Background(), l, Options{Chains: 1, Warmup: 3, Draws: 4, Seed: 8})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if first == nil {
+			first = res.Draws[0]
+			continue
+		}
+		if !slices.Equal(first, res.Draws[0]) {
+			t.Fatalf("draws at GOMAXPROCS %d differ from GOMAXPROCS 1", procs)
 		}
 	}
 }
