@@ -68,6 +68,10 @@ func (lb *LatentBlock) updateShard(st *State, s, lo, hi int) {
 	for k := range wq {
 		wq[k] = 0
 	}
+	if J == 1 && l.Cat[0] {
+		lb.updateShard1(st, s, lo, hi)
+		return
+	}
 	for i := lo; i < hi; i++ {
 		off := l.Panel.Offset[i]
 		Ti := l.Panel.Len[i]
@@ -144,6 +148,69 @@ func (lb *LatentBlock) updateShard(st *State, s, lo, hi int) {
 		}
 		accumulateWQuad(st, wq, w, Ti, lb.v[s], lb.sv[s])
 	}
+}
+
+// updateShard1 is updateShard for one categorical outcome: the same
+// conditional, with the J x J blocks reduced to scalars.
+func (lb *LatentBlock) updateShard1(st *State, s, lo, hi int) {
+	l := st.L
+	w, rng := lb.w[s], st.ShardRng[s]
+	tau := st.Tau[0]
+	nt := len(tau)
+	quad := 0.0
+	for i := lo; i < hi; i++ {
+		off := l.Panel.Offset[i]
+		Ti := l.Panel.Len[i]
+		b := st.B[i]
+		ys := st.Ystar[off : off+Ti]
+		y := st.Y[off : off+Ti]
+		nu := st.Nu[:Ti]
+		w := w[:Ti]
+		for t := range w {
+			w[t] = ys[t] - nu[t] - b
+		}
+		for t := 0; t < Ti; t++ {
+			sd, inv := st.MidSD[t], st.MidInv[t]
+			acc := 0.0
+			if t+1 < Ti {
+				acc = st.LBlk[t+1] * w[t+1]
+			} else {
+				sd, inv = st.LastSD[t], st.LastInv[t]
+			}
+			if t > 0 {
+				acc += st.LBlk[t] * w[t-1]
+			}
+			mean := -acc * inv
+			yt := y[t]
+			if yt != yt { // missing
+				w[t] = mean + sd*rng.NormFloat64()
+				continue
+			}
+			shift := nu[t] + b + mean
+			k := int(yt)
+			a, c := math.Inf(-1), math.Inf(1)
+			if k > 0 {
+				a = tau[k-1] - shift
+			}
+			if k < nt {
+				c = tau[k] - shift
+			}
+			isd := 1 / sd
+			if lb.record != nil {
+				lb.record(a*isd, c*isd)
+			}
+			w[t] = mean + sd*latentresp.TruncStdNormal(rng, a*isd, c*isd)
+		}
+		for t := 0; t < Ti; t++ {
+			ys[t] = w[t] + nu[t] + b
+			x := w[t]
+			if t > 0 {
+				x -= st.A[t] * w[t-1]
+			}
+			quad += x * x * st.SigInv[t]
+		}
+	}
+	lb.wq[s][0] = quad
 }
 
 // accumulateWQuad adds one person's terms of State.WQuad (lower triangle
