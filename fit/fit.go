@@ -92,7 +92,8 @@ func Fit(ctx context.Context, o Options) (*Outcome, error) {
 		return nil, err
 	}
 	ss := l.Spec.Sampler
-	opt := sampler.Options{Chains: ss.Chains, Warmup: ss.Warmup, Draws: ss.Draws, Seed: ss.Seed, ThresholdUpdate: ss.ThresholdUpdate, Progress: o.Progress}
+	opt := sampler.Options{Chains: ss.Chains, Warmup: ss.Warmup, Draws: ss.Draws, Seed: ss.Seed, ThresholdUpdate: ss.ThresholdUpdate,
+		PathMoves: ss.PathMoves, Progress: o.Progress}
 	if o.Chains > 0 {
 		opt.Chains = o.Chains
 	}

@@ -107,6 +107,9 @@ type SamplerSpec struct {
 	// R-hat <= 1.01 and bulk- and tail-ESS >= 400, up to MaxDraws per chain.
 	UntilConverged bool
 	MaxDraws       int
+	// PathMoves adds exact-HMC moves of whole latent paths (all outcomes
+	// categorical only).
+	PathMoves bool
 }
 
 // schema lists the keys allowed at each level of the model file.
@@ -117,7 +120,7 @@ var schema = map[string][]string{
 	"between":  {"random_intercepts"},
 	"within":   {"lags", "residual_correlation", "over_time", "first_occasion"},
 	"means":    {"over_time"},
-	"sampler":  {"chains", "warmup", "draws", "seed", "threshold_update", "until_converged", "max_draws"},
+	"sampler":  {"chains", "warmup", "draws", "seed", "threshold_update", "until_converged", "max_draws", "path_moves"},
 }
 
 // ReadSpec reads and checks the model file at path. Every problem is an
@@ -239,6 +242,9 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 		}
 		if v, ok := m["until_converged"]; ok {
 			sp.Sampler.UntilConverged = r.boolean(v, "sampler.until_converged")
+		}
+		if v, ok := m["path_moves"]; ok {
+			sp.Sampler.PathMoves = r.boolean(v, "sampler.path_moves")
 		}
 		if v, ok := m["max_draws"]; ok {
 			sp.Sampler.MaxDraws = r.intIn(v, "sampler.max_draws", 1, 10_000_000)

@@ -114,6 +114,15 @@ func BenchmarkBlocks(b *testing.B) {
 // correlations) per second of sampling, with the parameter that sets it.
 func essPerSecond(tb testing.TB, l *Layout, update model.ThresholdUpdate, chains, warmup, draws int, seed uint64, tweak func([]Block)) (float64, string, float64) {
 	res, err := runWith(l, update, chains, warmup, draws, seed, tweak)
+	return essSummary(tb, res, err, chains, draws)
+}
+
+func essPerSecondOpt(tb testing.TB, l *Layout, path bool) (float64, string, float64) {
+	res, err := runOpts(context.Background(), l, Options{Chains: 2, Warmup: 1000, Draws: 2000, Seed: 1, ThresholdUpdate: model.ThresholdJoint, PathMoves: path}, nil)
+	return essSummary(tb, res, err, 2, 2000)
+}
+
+func essSummary(tb testing.TB, res *Result, err error, chains, draws int) (float64, string, float64) {
 	if err != nil {
 		tb.Fatal(err)
 	}
@@ -206,4 +215,10 @@ func peakRSS() string {
 		}
 	}
 	return "unknown"
+}
+
+// essPerSecondWithPath is essPerSecond with the latent path move added
+// after the latent block.
+func essPerSecondWithPath(tb testing.TB, l *Layout) (float64, string, float64) {
+	return essPerSecondOpt(tb, l, true)
 }

@@ -17,6 +17,10 @@ type Options struct {
 	Chains, Warmup, Draws int
 	Seed                  uint64
 	ThresholdUpdate       model.ThresholdUpdate
+	// PathMoves adds the exact-HMC move of whole latent paths
+	// (LatentPathBlock) to every sweep; used only when every outcome is
+	// categorical. Off by default: see docs/performance.md for its cost.
+	PathMoves bool
 	// Progress, if not nil, is called from the chain goroutines after every
 	// sweep with the chain index, the number of chains, the sweeps done and
 	// the sweeps per chain; it must be safe for concurrent use.
@@ -44,8 +48,20 @@ type Result struct {
 // & Chib 1993): no joint threshold, scale or location moves, the baseline
 // for benchmarks.
 func Blocks(l *Layout, update model.ThresholdUpdate) []Block {
+	return blocksFor(l, Options{ThresholdUpdate: update})
+}
+
+// blocksFor returns the blocks for the options of a run.
+func blocksFor(l *Layout, opt Options) []Block {
+	update := opt.ThresholdUpdate
 	plain := update == model.ThresholdAlbertChib
-	bs := []Block{NewLatentBlock(l)}
+	var bs []Block
+	if opt.PathMoves && !slices.Contains(l.Cat, false) {
+		// Before the latent block, whose pass leaves State.WQuad for the
+		// scale and threshold blocks.
+		bs = append(bs, NewLatentPathBlock(l))
+	}
+	bs = append(bs, NewLatentBlock(l))
 	anyCat := slices.Contains(l.Cat, true)
 	if anyCat {
 		// The scale block comes right after the latent block, whose pass
@@ -129,7 +145,7 @@ func startOpts(ctx context.Context, l *Layout, opt Options, tweak func([]Block))
 		Draws: make([][]float64, opt.Chains), DerivedDraws: make([][]float64, opt.Chains), Kept: make([]int, opt.Chains)}}
 	for c, seed := range ChainSeeds(opt.Seed, opt.Chains) {
 		rng := rand.New(rand.NewPCG(seed[0], seed[1]))
-		ch := &chain{rng: rng, st: NewState(l, rng), blocks: Blocks(l, opt.ThresholdUpdate), dw: NewDerivedWork(l)}
+		ch := &chain{rng: rng, st: NewState(l, rng), blocks: blocksFor(l, opt), dw: NewDerivedWork(l)}
 		if tweak != nil {
 			tweak(ch.blocks)
 		}
