@@ -3,6 +3,7 @@ package report
 import (
 	"bytes"
 	"context"
+	"encoding/csv"
 	"encoding/json"
 	"math"
 	"strings"
@@ -109,5 +110,55 @@ func TestDrawsCSV(t *testing.T) {
 	}
 	if !strings.HasPrefix(lines[0], "chain,draw,threshold[rested,1]") && !strings.HasPrefix(lines[0], `chain,draw,"threshold[rested,1]"`) {
 		t.Errorf("header starts %q", lines[0][:40])
+	}
+}
+
+// TestManuscriptTables round-trips a summary through summary.json and
+// checks the three table formats.
+func TestManuscriptTables(t *testing.T) {
+	res := shortRun(t, 30)
+	raw, err := Build(res, 0.9, "test").JSON()
+	if err != nil {
+		t.Fatal(err)
+	}
+	s, err := ParseSummary(raw)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var md, tex, csvOut bytes.Buffer
+	for _, c := range []struct {
+		format string
+		w      *bytes.Buffer
+	}{{"md", &md}, {"latex", &tex}, {"csv", &csvOut}} {
+		if err := WriteManuscriptTable(c.w, s, c.format); err != nil {
+			t.Fatalf("%s: %v", c.format, err)
+		}
+	}
+	for _, want := range []string{"| rested, threshold 1 |", "headache → rested, cross-lag", "90% interval", "random-intercept correlation", "ICC"} {
+		if !strings.Contains(md.String(), want) {
+			t.Errorf("markdown lacks %q", want)
+		}
+	}
+	if !strings.Contains(tex.String(), `headache $\rightarrow$ rested`) || !strings.Contains(tex.String(), `90\% interval`) {
+		t.Errorf("latex not escaped as expected:\n%s", tex.String())
+	}
+	recs, err := csv.NewReader(&csvOut).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	found := false
+	for _, r := range recs[1:] {
+		if r[2] == "crosslag[rested->headache]" {
+			found = true
+			if r[6] == "" || r[3] == "" {
+				t.Errorf("cross-lag row lacks estimates: %v", r)
+			}
+		}
+	}
+	if !found {
+		t.Error("csv lacks the cross-lag row")
+	}
+	if err := WriteManuscriptTable(&md, s, "xls"); err == nil {
+		t.Error("unknown format accepted")
 	}
 }

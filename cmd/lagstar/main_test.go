@@ -217,3 +217,26 @@ func TestSimulateThenFit(t *testing.T) {
 		t.Errorf("bad truth file: exit %d, stderr %s", code, stderr)
 	}
 }
+
+func TestReportTable(t *testing.T) {
+	dir, mp := setup(t, goodModel, goodData())
+	out := filepath.Join(dir, "run")
+	if code, _, stderr := runCLI("fit", mp, "--out", out, "--quiet"); code != 0 {
+		t.Fatalf("fit: %s", stderr)
+	}
+	code, stdout, stderr := runCLI("report", out, "--table", "md")
+	if code != 0 || !strings.Contains(stdout, "| mood, threshold 1 |") {
+		t.Errorf("report --table md: exit %d, stderr %s, output %q", code, stderr, stdout)
+	}
+	tex := filepath.Join(dir, "t.tex")
+	if code, _, stderr := runCLI("report", out, "--table", "latex", "--out", tex); code != 0 {
+		t.Errorf("report --table latex --out: exit %d: %s", code, stderr)
+	} else if b, _ := os.ReadFile(tex); !strings.Contains(string(b), `\begin{tabular}`) {
+		t.Error("latex file lacks a tabular")
+	}
+	for _, args := range [][]string{{"report", out}, {"report", out, "--table", "pdf"}, {"report", filepath.Join(dir, "nope"), "--table", "md"}} {
+		if code, _, _ := runCLI(args...); code != 2 {
+			t.Errorf("%v: exit %d, want 2", args, code)
+		}
+	}
+}

@@ -1,0 +1,60 @@
+package main
+
+import (
+	"bytes"
+	"fmt"
+	"io"
+
+	"github.com/lagstar/lagstar/model"
+	"github.com/lagstar/lagstar/report"
+	"github.com/spf13/cobra"
+)
+
+func newReportCmd(stdout, stderr io.Writer) *cobra.Command {
+	var table, out string
+	cmd := &cobra.Command{
+		Use:   "report RUN_DIR --table md|latex|csv [--out FILE]",
+		Short: "Write the key estimates of a finished fit as a table for a manuscript",
+		Long: `report reads the summary.json of a fit's output folder and writes the key
+estimates, ready to paste: thresholds, random-intercept variances and
+correlations, carry-over and cross-lags (raw and within-person standardized),
+residual correlations and latent ICCs, each with its posterior mean and
+central interval. --table md gives Markdown, latex a tabular, csv one row per
+quantity. (The HTML report with figures is not available yet.)`,
+		Example: "  lagstar report diary-fit --table md\n  lagstar report diary-fit --table latex --out table1.tex",
+		Args:    cobra.ExactArgs(1),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			switch table {
+			case "md", "latex", "csv":
+			case "":
+				return &usageError{fmt.Errorf("--table: give md, latex or csv (the HTML report is not available yet)")}
+			default:
+				return &usageError{fmt.Errorf("--table: expected md, latex or csv, got %q", table)}
+			}
+			raw, err := model.ReadRunFile(args[0], "summary.json")
+			if err != nil {
+				return err
+			}
+			s, err := report.ParseSummary(raw)
+			if err != nil {
+				return model.Inputf(args[0], 0, "%v", err)
+			}
+			var b bytes.Buffer
+			if err := report.WriteManuscriptTable(&b, s, table); err != nil {
+				return err
+			}
+			if out == "" {
+				_, err = stdout.Write(b.Bytes())
+				return err
+			}
+			if err := report.WriteAtomic(out, b.Bytes()); err != nil {
+				return err
+			}
+			fmt.Fprintf(stderr, "wrote %s\n", out)
+			return nil
+		},
+	}
+	cmd.Flags().StringVar(&table, "table", "", "table format: md, latex or csv")
+	cmd.Flags().StringVar(&out, "out", "", "write the table to this file instead of standard output")
+	return cmd
+}

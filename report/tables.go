@@ -1,0 +1,223 @@
+package report
+
+import (
+	"bytes"
+	"encoding/csv"
+	"encoding/json"
+	"fmt"
+	"io"
+	"math"
+	"strings"
+)
+
+// ParseSummary decodes a summary.json (null numbers become NaN).
+func ParseSummary(raw []byte) (*Summary, error) {
+	var s struct {
+		Summary
+		Parameters []entryJSON `json:"parameters"`
+		Derived    []entryJSON `json:"derived"`
+	}
+	if err := json.Unmarshal(raw, &s); err != nil {
+		return nil, fmt.Errorf("summary.json is not valid: %w", err)
+	}
+	out := s.Summary
+	out.Parameters, out.Derived = nil, nil
+	for _, e := range s.Parameters {
+		out.Parameters = append(out.Parameters, e.entry())
+	}
+	for _, e := range s.Derived {
+		out.Derived = append(out.Derived, e.entry())
+	}
+	return &out, nil
+}
+
+// entryJSON mirrors Entry with nullable numbers.
+type entryJSON struct {
+	Name     string   `json:"name"`
+	Kind     string   `json:"kind"`
+	Outcome  string   `json:"outcome"`
+	From     string   `json:"from"`
+	With     string   `json:"with"`
+	Occasion *int     `json:"occasion"`
+	Index    int      `json:"index"`
+	Mean     *float64 `json:"mean"`
+	SD       *float64 `json:"sd"`
+	Median   *float64 `json:"median"`
+	Lower    *float64 `json:"lower"`
+	Upper    *float64 `json:"upper"`
+	Level    *float64 `json:"level"`
+	Rhat     *float64 `json:"rhat"`
+	ESSBulk  *float64 `json:"ess_bulk"`
+	ESSTail  *float64 `json:"ess_tail"`
+}
+
+func num(p *float64) Num {
+	if p == nil {
+		return Num(nan)
+	}
+	return Num(*p)
+}
+
+func (e entryJSON) entry() Entry {
+	return Entry{Name: e.Name, Kind: e.Kind, Outcome: e.Outcome, From: e.From, With: e.With, Occasion: e.Occasion, Index: e.Index,
+		Mean: num(e.Mean), SD: num(e.SD), Median: num(e.Median), Lower: num(e.Lower), Upper: num(e.Upper), Level: num(e.Level),
+		Rhat: num(e.Rhat), ESSBulk: num(e.ESSBulk), ESSTail: num(e.ESSTail)}
+}
+
+// tableRow is one row of a manuscript table.
+type tableRow struct {
+	section, label string
+	est, std       *Entry // raw estimate; within-person standardized (paths only)
+}
+
+// manuscriptRows picks the key estimates: thresholds, random-intercept
+// variances and correlations, autoregressions and cross-lags (raw and
+// within-person standardized), innovation correlations and ICCs.
+func manuscriptRows(s *Summary) []tableRow {
+	std := map[string]*Entry{}
+	for i := range s.Derived {
+		e := &s.Derived[i]
+		std[e.Kind+"|"+e.Outcome+"|"+e.From+"|"+occ(e.Occasion)] = e
+	}
+	var rows []tableRow
+	add := func(section string, kinds ...string) {
+		for i := range s.Parameters {
+			e := &s.Parameters[i]
+			for _, k := range kinds {
+				if e.Kind != k {
+					continue
+				}
+				r := tableRow{section: section, label: label(e), est: e}
+				if k == "autoregression" || k == "crosslag" {
+					r.std = std["std_"+k+"|"+e.Outcome+"|"+e.From+"|"+occ(e.Occasion)]
+				}
+				rows = append(rows, r)
+			}
+		}
+	}
+	add("Thresholds", "threshold")
+	add("Between persons", "ri_variance", "ri_correlation")
+	add("Within persons", "autoregression", "crosslag", "innovation_variance", "innovation_correlation")
+	for i := range s.Derived {
+		if e := &s.Derived[i]; e.Kind == "icc" {
+			rows = append(rows, tableRow{section: "Intraclass correlations (latent)", label: label(e), est: e})
+		}
+	}
+	return rows
+}
+
+func occ(o *int) string {
+	if o == nil {
+		return ""
+	}
+	return fmt.Sprint(*o)
+}
+
+// label renders an entry in words for a manuscript.
+func label(e *Entry) string {
+	at := ""
+	if e.Occasion != nil {
+		at = fmt.Sprintf(", occasion %d", *e.Occasion)
+	}
+	switch e.Kind {
+	case "threshold":
+		return fmt.Sprintf("%s, threshold %d", e.Outcome, e.Index)
+	case "ri_variance":
+		return fmt.Sprintf("%s, random-intercept variance", e.Outcome)
+	case "ri_correlation":
+		return fmt.Sprintf("%s with %s, random-intercept correlation", e.Outcome, e.With)
+	case "autoregression":
+		return fmt.Sprintf("%s, carry-over%s", e.Outcome, at)
+	case "crosslag":
+		return fmt.Sprintf("%s → %s, cross-lag%s", e.From, e.Outcome, at)
+	case "innovation_variance":
+		return fmt.Sprintf("%s, innovation variance%s", e.Outcome, at)
+	case "innovation_correlation":
+		return fmt.Sprintf("%s with %s, residual correlation%s", e.Outcome, e.With, at)
+	case "icc":
+		return fmt.Sprintf("%s, ICC%s", e.Outcome, at)
+	}
+	return e.Name
+}
+
+// WriteManuscriptTable writes the key estimates as format md, latex or csv:
+// posterior mean and central interval, and for paths the within-person
+// standardized estimate with its interval.
+func WriteManuscriptTable(w io.Writer, s *Summary, format string) error {
+	rows := manuscriptRows(s)
+	if len(rows) == 0 {
+		return fmt.Errorf("summary has no parameters to tabulate")
+	}
+	level := float64(rows[0].est.Level)
+	ci := fmt.Sprintf("%.0f%% interval", 100*level)
+	cell := func(e *Entry) (string, string) {
+		if e == nil {
+			return "", ""
+		}
+		return fmt.Sprintf("%.2f", float64(e.Mean)), fmt.Sprintf("[%.2f, %.2f]", float64(e.Lower), float64(e.Upper))
+	}
+	switch format {
+	case "csv":
+		var b bytes.Buffer
+		cw := csv.NewWriter(&b)
+		cw.Write([]string{"section", "quantity", "parameter", "mean", "lower", "upper", "std_mean", "std_lower", "std_upper", "level"})
+		for _, r := range rows {
+			rec := []string{r.section, r.label, r.est.Name, f(r.est.Mean), f(r.est.Lower), f(r.est.Upper), "", "", "", f(r.est.Level)}
+			if r.std != nil {
+				rec[6], rec[7], rec[8] = f(r.std.Mean), f(r.std.Lower), f(r.std.Upper)
+			}
+			cw.Write(rec)
+		}
+		cw.Flush()
+		_, err := w.Write(b.Bytes())
+		return err
+	case "md":
+		var b strings.Builder
+		fmt.Fprintf(&b, "| Quantity | Estimate | %s | Standardized | %s |\n|---|---:|---|---:|---|\n", ci, ci)
+		section := ""
+		for _, r := range rows {
+			if r.section != section {
+				section = r.section
+				fmt.Fprintf(&b, "| **%s** | | | | |\n", section)
+			}
+			m, i := cell(r.est)
+			sm, si := cell(r.std)
+			fmt.Fprintf(&b, "| %s | %s | %s | %s | %s |\n", r.label, m, i, sm, si)
+		}
+		fmt.Fprintf(&b, "\nPosterior means with central %s (categorical outcomes on the probit latent-response scale, continuous ones on their own scale). Standardized: within-person standardized paths. %s\n", ci+"s", Caution)
+		_, err := io.WriteString(w, b.String())
+		return err
+	case "latex":
+		var b strings.Builder
+		b.WriteString("\\begin{tabular}{lrlrl}\n\\hline\n")
+		fmt.Fprintf(&b, "Quantity & Estimate & %s & Standardized & %s \\\\\n\\hline\n", tex(ci), tex(ci))
+		section := ""
+		for _, r := range rows {
+			if r.section != section {
+				section = r.section
+				fmt.Fprintf(&b, "\\multicolumn{5}{l}{\\textit{%s}} \\\\\n", tex(section))
+			}
+			m, i := cell(r.est)
+			sm, si := cell(r.std)
+			fmt.Fprintf(&b, "%s & %s & %s & %s & %s \\\\\n", tex(strings.ReplaceAll(r.label, "→", "->")), m, i, sm, si)
+		}
+		b.WriteString("\\hline\n\\end{tabular}\n")
+		_, err := io.WriteString(w, b.String())
+		return err
+	}
+	return fmt.Errorf("unknown table format %q (md, latex or csv)", format)
+}
+
+func f(n Num) string {
+	if bad(n) {
+		return ""
+	}
+	return fmt.Sprintf("%.6g", float64(n))
+}
+
+func tex(s string) string {
+	r := strings.NewReplacer(`\`, `\textbackslash{}`, "&", `\&`, "%", `\%`, "$", `\$`, "#", `\#`, "_", `\_`, "{", `\{`, "}", `\}`, "~", `\textasciitilde{}`, "^", `\textasciicircum{}`, "->", `$\rightarrow$`)
+	return r.Replace(s)
+}
+
+var nan = math.NaN()
