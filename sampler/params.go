@@ -3,6 +3,7 @@ package sampler
 import (
 	"fmt"
 	"math"
+	"math/rand/v2"
 
 	"github.com/lagstar/lagstar/internal/dense"
 	"gonum.org/v1/gonum/stat/distuv"
@@ -343,4 +344,140 @@ func (s *State) ExtractDerived(dst []float64, dw *DerivedWork) []float64 {
 		}
 	}
 	return dst
+}
+
+// Inject sets the state's parameters from a vector in the order and on the
+// scales of Extract (the inverse of Extract), then refreshes the caches.
+// Latent responses and random intercepts are left as they are.
+func (s *State) Inject(v []float64) error {
+	l := s.L
+	J := l.J
+	JJ := J * J
+	if want := len(l.Params()); len(v) != want {
+		return fmt.Errorf("sampler: %d values for %d parameters", len(v), want)
+	}
+	k := 0
+	next := func() float64 { x := v[k]; k++; return x }
+	for j := 0; j < J; j++ {
+		if l.Cat[j] {
+			for q := range s.Tau[j] {
+				s.Tau[j][q] = next()
+			}
+		}
+	}
+	seen := make([]bool, l.NMean)
+	for t := 0; t < l.T; t++ {
+		for j := 0; j < J; j++ {
+			idx := l.MeanIdx[t*J+j]
+			if idx < 0 || seen[idx] {
+				continue
+			}
+			seen[idx] = true
+			s.Mean[idx] = (next() - l.Center[j]) / l.Scale[j]
+		}
+	}
+	s.SyncNu()
+	if l.RI {
+		for j := 0; j < J; j++ {
+			s.Psi[j*J+j] = next() / (l.Scale[j] * l.Scale[j])
+		}
+		for a := 0; a < J; a++ {
+			for b := a + 1; b < J; b++ {
+				c := next() * math.Sqrt(s.Psi[a*J+a]*s.Psi[b*J+b])
+				s.Psi[a*J+b], s.Psi[b*J+a] = c, c
+			}
+		}
+	}
+	if l.HasPaths() && l.T > 1 {
+		a := make([]float64, JJ)
+		for t := 1; t < l.T; t++ {
+			if !l.PathsFree && t > 1 {
+				break
+			}
+			for r := 0; r < J; r++ {
+				for c := 0; c < J; c++ {
+					if l.PathFree[r*J+c] {
+						a[r*J+c] = next() * l.Scale[c] / l.Scale[r]
+					}
+				}
+			}
+			s.setPaths(t, a)
+		}
+	}
+	for g, grp := range l.Groups {
+		for j := 0; j < J; j++ {
+			if grp.FreeSD[j] {
+				s.SD[g][j] = math.Sqrt(next()) / l.Scale[j]
+			}
+		}
+		if grp.Corr {
+			for a := 0; a < J; a++ {
+				for b := a + 1; b < J; b++ {
+					x := next()
+					s.R[g][a*J+b], s.R[g][b*J+a] = x, x
+				}
+			}
+		}
+	}
+	return s.Refresh()
+}
+
+// Replicate draws a new data set on the panel's pattern (the same persons,
+// occasions and missing cells) from the state's parameters, with new random
+// intercepts and within paths: y* = nu + b + w, cut at the thresholds. It
+// writes categories, or continuous values on the analysis scale, into dst
+// (NaN where the data are missing). rng is used by one goroutine at a time.
+func (s *State) Replicate(dst []float64, rng *rand.Rand) {
+	l := s.L
+	J := l.J
+	JJ := J * J
+	work := make([]float64, 3*JJ+3*J)
+	chol, z, b, cur := work[:JJ], work[JJ:JJ+J], work[JJ+J:JJ+2*J], work[JJ+2*J:JJ+3*J]
+	prev := work[JJ+3*J : JJ+4*J]
+	draw := func(dst, m []float64) {
+		copy(chol, m)
+		dense.Cholesky(chol, J)
+		for q := range z {
+			z[q] = rng.NormFloat64()
+		}
+		dense.MulVec(dst, chol, z, J, J)
+	}
+	for i := 0; i < l.N; i++ {
+		for q := range b {
+			b[q] = 0
+		}
+		if l.RI {
+			draw(b, s.Psi)
+		}
+		off := l.Panel.Offset[i]
+		for t := 0; t < l.Panel.Len[i]; t++ {
+			draw(cur, s.Sig[t*JJ:(t+1)*JJ])
+			if t > 0 {
+				a := s.A[t*JJ : (t+1)*JJ]
+				for r := 0; r < J; r++ {
+					for c := 0; c < J; c++ {
+						cur[r] += a[r*J+c] * prev[c]
+					}
+				}
+			}
+			copy(prev, cur)
+			for j := 0; j < J; j++ {
+				c := off + t*J + j
+				if s.Y[c] != s.Y[c] {
+					dst[c] = math.NaN()
+					continue
+				}
+				y := s.Nu[t*J+j] + b[j] + cur[j]
+				if !l.Cat[j] {
+					dst[c] = y
+					continue
+				}
+				k := 0
+				for k < len(s.Tau[j]) && y > s.Tau[j][k] {
+					k++
+				}
+				dst[c] = float64(k)
+			}
+		}
+	}
 }

@@ -150,3 +150,27 @@ func TestShardedDrawsIndependentOfCores(t *testing.T) {
 		}
 	}
 }
+
+// TestInjectInvertsExtract: Extract after Inject gives back the vector.
+func TestInjectInvertsExtract(t *testing.T) {
+	for _, p := range problems()[:2] {
+		l := p.layout(t)
+		rng := newRand(6)
+		a := NewState(l, rng)
+		blocks := Blocks(l, "joint")
+		for range 10 {
+			Sweep(a, blocks, rng)
+		}
+		v := a.Extract(nil)
+		b := NewState(l, newRand(7))
+		if err := b.Inject(v); err != nil {
+			t.Fatal(err)
+		}
+		got := b.Extract(nil)
+		for k := range v {
+			if math.Abs(got[k]-v[k]) > 1e-12*(1+math.Abs(v[k])) {
+				t.Errorf("%s: parameter %d: %v after Inject, want %v", p.name, k, got[k], v[k])
+			}
+		}
+	}
+}
