@@ -34,6 +34,7 @@ type Outcome struct {
 // value, or NaN for missing.
 type Panel struct {
 	File      string
+	Raw       []byte // the file's content, kept so a run folder can hold a copy
 	SHA256    string
 	Rows      int
 	Outcomes  []Outcome
@@ -76,6 +77,7 @@ type cellRow struct {
 // ParsePanel parses long-format CSV content raw (named file in messages).
 func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
 	sum := sha256.Sum256(raw)
+	orig := raw
 	raw = bytes.TrimPrefix(raw, []byte("\xef\xbb\xbf"))
 	r := csv.NewReader(bytes.NewReader(raw))
 	r.FieldsPerRecord = -1
@@ -162,7 +164,7 @@ func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
 	if len(rows) == 0 {
 		return nil, Inputf(file, 0, "data file has a header but no data rows")
 	}
-	pan := &Panel{File: file, SHA256: hex.EncodeToString(sum[:]), Rows: len(rows)}
+	pan := &Panel{File: file, Raw: orig, SHA256: hex.EncodeToString(sum[:]), Rows: len(rows)}
 	pan.Outcomes = make([]Outcome, len(sp.Outcomes))
 	for k, o := range sp.Outcomes {
 		out, err := resolveOutcome(sp, file, o, rows, k)

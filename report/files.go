@@ -84,7 +84,8 @@ func NewRunRecord(res *sampler.Result, version string, started time.Time) RunRec
 		WallSeconds: Num(res.Elapsed.Seconds()), Started: started.UTC()}
 }
 
-// WriteRun writes draws.csv, run.json and summary.json into dir, each
+// WriteRun writes data.csv (a copy of the data, for lagstar check),
+// draws.csv, run.json and summary.json into dir, each
 // through a temporary file and a rename, summary.json last, so that a
 // summary.json present in dir always belongs to a fully written run.
 func WriteRun(dir string, res *sampler.Result, s *Summary, rec RunRecord) error {
@@ -110,7 +111,7 @@ func WriteRun(dir string, res *sampler.Result, s *Summary, rec RunRecord) error 
 	for _, f := range []struct {
 		name string
 		data []byte
-	}{{"draws.csv", draws}, {"run.json", append(runJSON, '\n')}, {"summary.json", sum}} {
+	}{{"data.csv", res.Layout.Panel.Raw}, {"draws.csv", draws}, {"run.json", append(runJSON, '\n')}, {"summary.json", sum}} {
 		if err := WriteAtomic(filepath.Join(dir, f.name), f.data); err != nil {
 			return err
 		}

@@ -68,6 +68,6 @@ reports convergence diagnostics with every estimate.`,
 	root.SetFlagErrorFunc(func(c *cobra.Command, err error) error {
 		return &usageError{fmt.Errorf("%w (see %s --help)", err, c.CommandPath())}
 	})
-	root.AddCommand(newFitCmd(stdout, stderr), newDemoCmd(stdout, stderr), newSimulateCmd(stdout, stderr), newReportCmd(stdout, stderr))
+	root.AddCommand(newFitCmd(stdout, stderr), newDemoCmd(stdout, stderr), newSimulateCmd(stdout, stderr), newReportCmd(stdout, stderr), newCheckCmd(stdout, stderr))
 	return root
 }

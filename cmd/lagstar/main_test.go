@@ -240,3 +240,29 @@ func TestReportTable(t *testing.T) {
 		}
 	}
 }
+
+func TestCheckCommand(t *testing.T) {
+	dir, mp := setup(t, goodModel, goodData())
+	out := filepath.Join(dir, "run")
+	if code, _, stderr := runCLI("fit", mp, "--out", out, "--quiet"); code != 0 {
+		t.Fatalf("fit: %s", stderr)
+	}
+	code, stdout, stderr := runCLI("check", out, "--draws", "50")
+	if code != 0 || !strings.Contains(stdout, "Posterior predictive checks") || !strings.Contains(stdout, "transition[mood:1->1]") {
+		t.Fatalf("check: exit %d, stderr %s, output %q", code, stderr, stdout)
+	}
+	raw, err := os.ReadFile(filepath.Join(out, "check.json"))
+	if err != nil || !strings.Contains(string(raw), `"ppp"`) {
+		t.Errorf("check.json missing or without p-values (err %v)", err)
+	}
+	// A tampered data copy is refused.
+	if err := os.WriteFile(filepath.Join(out, "data.csv"), []byte("id,wave,mood,pain\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if code, _, stderr := runCLI("check", out); code != 2 || !strings.Contains(stderr, "does not match the data of the run") {
+		t.Errorf("tampered data: exit %d, stderr %s", code, stderr)
+	}
+	if code, _, _ := runCLI("check", filepath.Join(dir, "none")); code != 2 {
+		t.Errorf("missing run folder: exit %d, want 2", code)
+	}
+}

@@ -1,0 +1,123 @@
+package fit
+
+import (
+	"bytes"
+	"crypto/sha256"
+	"encoding/csv"
+	"encoding/hex"
+	"encoding/json"
+	"path/filepath"
+	"strconv"
+
+	"github.com/lagstar/lagstar/check"
+	"github.com/lagstar/lagstar/model"
+	"github.com/lagstar/lagstar/priors"
+	"github.com/lagstar/lagstar/report"
+	"github.com/lagstar/lagstar/sampler"
+)
+
+// CheckOptions says which run to check and how many posterior draws to
+// replicate from.
+type CheckOptions struct {
+	RunDir string
+	Draws  int // 0: 400
+	Seed   uint64
+}
+
+// Check runs the posterior predictive checks of a finished fit from its
+// run folder (run.json, data.csv, draws.csv) and writes check.json there.
+func Check(o CheckOptions) (*check.Result, error) {
+	if o.Draws <= 0 {
+		o.Draws = 400
+	}
+	rawRun, err := model.ReadRunFile(o.RunDir, "run.json")
+	if err != nil {
+		return nil, err
+	}
+	var rec report.RunRecord
+	if err := json.Unmarshal(rawRun, &rec); err != nil {
+		return nil, model.Inputf(filepath.Join(o.RunDir, "run.json"), 0, "not valid: %v", err)
+	}
+	if !rec.Complete {
+		return nil, model.Inputf(o.RunDir, 0, "the run is incomplete (interrupted); check needs a finished run")
+	}
+	data, err := model.ReadRunFile(o.RunDir, "data.csv")
+	if err != nil {
+		return nil, err
+	}
+	if sum := sha256.Sum256(data); hex.EncodeToString(sum[:]) != rec.DataSHA256 {
+		return nil, model.Inputf(filepath.Join(o.RunDir, "data.csv"), 0, "does not match the data of the run (SHA-256 differs from run.json)")
+	}
+	sp, err := model.ParseSpec(filepath.Join(o.RunDir, "run.json: model_content"), []byte(rec.ModelContent))
+	if err != nil {
+		return nil, err
+	}
+	sp.Data.File = filepath.Join(o.RunDir, "data.csv")
+	pan, err := model.ParsePanel(sp, sp.Data.File, data)
+	if err != nil {
+		return nil, err
+	}
+	if err := model.Identify(sp, pan); err != nil {
+		return nil, err
+	}
+	l := sampler.NewLayout(sp, pan, priors.Default())
+	rawDraws, err := model.ReadRunFile(o.RunDir, "draws.csv")
+	if err != nil {
+		return nil, err
+	}
+	draws, err := parseDraws(rawDraws, l, filepath.Join(o.RunDir, "draws.csv"))
+	if err != nil {
+		return nil, err
+	}
+	res, err := check.Run(l, draws, o.Draws, o.Seed)
+	if err != nil {
+		return nil, err
+	}
+	out, err := json.MarshalIndent(res, "", "  ")
+	if err != nil {
+		return nil, err
+	}
+	if err := report.WriteAtomic(filepath.Join(o.RunDir, "check.json"), append(out, '\n')); err != nil {
+		return nil, err
+	}
+	return res, nil
+}
+
+// parseDraws reads draws.csv into parameter vectors in the order of
+// l.Params, matching columns by name.
+func parseDraws(raw []byte, l *sampler.Layout, file string) ([][]float64, error) {
+	recs, err := csv.NewReader(bytes.NewReader(raw)).ReadAll()
+	if err != nil {
+		return nil, model.Inputf(file, 0, "not valid CSV: %v", err)
+	}
+	if len(recs) < 2 {
+		return nil, model.Inputf(file, 0, "has no draws")
+	}
+	col := map[string]int{}
+	for i, h := range recs[0] {
+		col[h] = i
+	}
+	params := l.Params()
+	idx := make([]int, len(params))
+	for p, par := range params {
+		i, ok := col[par.Name]
+		if !ok {
+			return nil, model.Inputf(file, 1, "no column %q: the draws do not belong to this model", par.Name)
+		}
+		idx[p] = i
+	}
+	out := make([][]float64, 0, len(recs)-1)
+	for r, rec := range recs[1:] {
+		v := make([]float64, len(params))
+		for p, i := range idx {
+			x, err := strconv.ParseFloat(rec[i], 64)
+			if err != nil {
+				return nil, model.Inputf(file, r+2, "column %q: %q is not a number", params[p].Name, rec[i])
+			}
+			v[p] = x
+		}
+		out = append(out, v)
+	}
+	return out, nil
+}
+
