@@ -120,4 +120,3 @@ func parseDraws(raw []byte, l *sampler.Layout, file string) ([][]float64, error)
 	}
 	return out, nil
 }
-
