@@ -16,7 +16,8 @@ func TestDependencyDirection(t *testing.T) {
 		"priors":         {"model", "sampler", "diagnostics", "report", "fit", "cmd"},
 		"model":          {"sampler", "priors", "latentresp", "diagnostics", "report", "fit", "cmd"},
 		"sampler":        {"report", "fit", "cmd", "diagnostics"},
-		"report":         {"fit", "cmd"},
+		"report":         {"fit", "cmd", "check"},
+		"check":          {"fit", "cmd", "report", "validate"},
 		"internal/dense": {"model", "sampler", "priors", "report", "fit"},
 	}
 	for pkg, bad := range forbidden {
