@@ -428,11 +428,18 @@ func (s *State) Inject(v []float64) error {
 // writes categories, or continuous values on the analysis scale, into dst
 // (NaN where the data are missing). rng is used by one goroutine at a time.
 func (s *State) Replicate(dst []float64, rng *rand.Rand) {
+	s.ReplicateLatent(dst, nil, nil, rng)
+}
+
+// ReplicateLatent is Replicate that also keeps the latent responses of every
+// cell (missing ones included) in ystar and the random intercepts in b, when
+// those are not nil: a draw from p(y, y*, b | parameters).
+func (s *State) ReplicateLatent(dst, ystar, b []float64, rng *rand.Rand) {
 	l := s.L
 	J := l.J
 	JJ := J * J
-	work := make([]float64, 3*JJ+3*J)
-	chol, z, b, cur := work[:JJ], work[JJ:JJ+J], work[JJ+J:JJ+2*J], work[JJ+2*J:JJ+3*J]
+	work := make([]float64, JJ+4*J)
+	chol, z, bi, cur := work[:JJ], work[JJ:JJ+J], work[JJ+J:JJ+2*J], work[JJ+2*J:JJ+3*J]
 	prev := work[JJ+3*J : JJ+4*J]
 	draw := func(dst, m []float64) {
 		copy(chol, m)
@@ -443,11 +450,14 @@ func (s *State) Replicate(dst []float64, rng *rand.Rand) {
 		dense.MulVec(dst, chol, z, J, J)
 	}
 	for i := 0; i < l.N; i++ {
-		for q := range b {
-			b[q] = 0
+		for q := range bi {
+			bi[q] = 0
 		}
 		if l.RI {
-			draw(b, s.Psi)
+			draw(bi, s.Psi)
+		}
+		if b != nil {
+			copy(b[i*J:i*J+J], bi)
 		}
 		off := l.Panel.Offset[i]
 		for t := 0; t < l.Panel.Len[i]; t++ {
@@ -463,20 +473,22 @@ func (s *State) Replicate(dst []float64, rng *rand.Rand) {
 			copy(prev, cur)
 			for j := 0; j < J; j++ {
 				c := off + t*J + j
-				if s.Y[c] != s.Y[c] {
+				y := s.Nu[t*J+j] + bi[j] + cur[j]
+				if ystar != nil {
+					ystar[c] = y
+				}
+				switch {
+				case s.Y[c] != s.Y[c]:
 					dst[c] = math.NaN()
-					continue
-				}
-				y := s.Nu[t*J+j] + b[j] + cur[j]
-				if !l.Cat[j] {
+				case !l.Cat[j]:
 					dst[c] = y
-					continue
+				default:
+					k := 0
+					for k < len(s.Tau[j]) && y > s.Tau[j][k] {
+						k++
+					}
+					dst[c] = float64(k)
 				}
-				k := 0
-				for k < len(s.Tau[j]) && y > s.Tau[j][k] {
-					k++
-				}
-				dst[c] = float64(k)
 			}
 		}
 	}

@@ -5,7 +5,6 @@ import (
 	"math/rand/v2"
 	"testing"
 
-	"github.com/lagstar/lagstar/internal/dense"
 	"github.com/lagstar/lagstar/model"
 	"github.com/lagstar/lagstar/sampler"
 )
@@ -13,56 +12,9 @@ import (
 // redrawData replaces the state's data, latent responses and random
 // intercepts by a draw from p(y, y*, b | parameters): the data step of
 // Geweke's successive-conditional simulator.
-func redrawData(st *sampler.State, rng *rand.Rand, chol []float64, z, prev, cur []float64) {
-	l := st.L
-	J := l.J
-	JJ := J * J
-	draw := func(dst, m []float64) {
-		copy(chol, m)
-		if !dense.Cholesky(chol, J) {
-			panic("validate: covariance not positive definite")
-		}
-		for k := range z {
-			z[k] = rng.NormFloat64()
-		}
-		dense.MulVec(dst, chol, z, J, J)
-	}
-	for i := 0; i < l.N; i++ {
-		b := st.B[i*J : i*J+J]
-		for k := range b {
-			b[k] = 0
-		}
-		if l.RI {
-			draw(b, st.Psi)
-		}
-		off := l.Panel.Offset[i]
-		for t := 0; t < l.Panel.Len[i]; t++ {
-			draw(cur, st.Sig[t*JJ:(t+1)*JJ])
-			if t > 0 {
-				a := st.A[t*JJ : (t+1)*JJ]
-				for r := 0; r < J; r++ {
-					for c := 0; c < J; c++ {
-						cur[r] += a[r*J+c] * prev[c]
-					}
-				}
-			}
-			copy(prev, cur)
-			for j := 0; j < J; j++ {
-				c := off + t*J + j
-				y := st.Nu[t*J+j] + b[j] + cur[j]
-				st.Ystar[c] = y
-				if l.Cat[j] {
-					k := 0
-					for k < len(st.Tau[j]) && y > st.Tau[j][k] {
-						k++
-					}
-					st.Y[c] = float64(k)
-				} else {
-					st.Y[c] = y
-				}
-			}
-		}
-	}
+func redrawData(st *sampler.State, rng *rand.Rand, y []float64) {
+	st.ReplicateLatent(y, st.Ystar, st.B, rng)
+	copy(st.Y, y)
 }
 
 // TestGewekeJointDistribution is Geweke's (2004, JASA 99:799) test of the
@@ -112,15 +64,14 @@ func TestGewekeJointDistribution(t *testing.T) {
 	const L, batches, burn = 400000, 40, 2000
 	st := DrawPrior(l, pr, rng)
 	blocks := sampler.Blocks(l, model.ThresholdJoint)
-	J := l.J
-	chol, z, prev, cur := make([]float64, J*J), make([]float64, J), make([]float64, J), make([]float64, J)
+	y := make([]float64, len(st.Y))
 	batchSum := make([][]float64, batches)
 	for b := range batchSum {
 		batchSum[b] = make([]float64, 2*np)
 	}
 	per := L / batches
 	for it := 0; it < L+burn; it++ {
-		redrawData(st, rng, chol, z, prev, cur)
+		redrawData(st, rng, y)
 		if err := sampler.Sweep(st, blocks, rng); err != nil {
 			t.Fatalf("sweep %d: %v", it, err)
 		}
