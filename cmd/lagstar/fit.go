@@ -11,7 +11,6 @@ import (
 
 	"github.com/lagstar/lagstar/fit"
 	"github.com/lagstar/lagstar/report"
-	"github.com/schollz/progressbar/v3"
 	"github.com/spf13/cobra"
 )
 
@@ -126,43 +125,84 @@ func isTerminal(w io.Writer) bool {
 	return err == nil && st.Mode()&os.ModeCharDevice != 0
 }
 
-// chainProgress shows one bar over the sweeps of all chains, with an ETA.
-// It is fed from the chain goroutines.
+// chainProgress draws one progress line per chain on a terminal (stderr),
+// each with its sweeps done and an estimated time left, redrawn in place a
+// few times a second. It is fed from the chain goroutines.
 type chainProgress struct {
-	mu    sync.Mutex
-	w     io.Writer
-	bar   *progressbar.ProgressBar
-	done  []int
-	shown int
+	mu      sync.Mutex
+	w       io.Writer
+	done    []int
+	total   []int
+	start   time.Time
+	drawn   int // lines on screen
+	stop    chan struct{}
+	stopped chan struct{}
 }
 
-func newChainProgress(w io.Writer) *chainProgress { return &chainProgress{w: w} }
+func newChainProgress(w io.Writer) *chainProgress {
+	p := &chainProgress{w: w, start: time.Now(), stop: make(chan struct{}), stopped: make(chan struct{})}
+	go func() {
+		defer close(p.stopped)
+		tick := time.NewTicker(200 * time.Millisecond)
+		defer tick.Stop()
+		for {
+			select {
+			case <-p.stop:
+				return
+			case <-tick.C:
+				p.draw()
+			}
+		}
+	}()
+	return p
+}
 
 func (p *chainProgress) update(chain, chains, done, total int) {
 	p.mu.Lock()
 	defer p.mu.Unlock()
-	if p.bar == nil {
-		p.done = make([]int, chains)
-		p.bar = progressbar.NewOptions(chains*total, progressbar.OptionSetWriter(p.w),
-			progressbar.OptionSetDescription(fmt.Sprintf("sampling %d chains", chains)), progressbar.OptionShowCount(),
-			progressbar.OptionSetPredictTime(true), progressbar.OptionThrottle(100*time.Millisecond),
-			progressbar.OptionClearOnFinish())
+	if p.done == nil {
+		p.done, p.total = make([]int, chains), make([]int, chains)
 	}
-	p.done[chain] = done
-	sum := 0
-	for _, d := range p.done {
-		sum += d
-	}
-	if all := chains * total; sum-p.shown >= max(all/200, 1) || sum == all {
-		p.bar.Set(sum)
-		p.shown = sum
-	}
+	p.done[chain], p.total[chain] = done, total
 }
 
-func (p *chainProgress) finish() {
+func (p *chainProgress) draw() {
 	p.mu.Lock()
 	defer p.mu.Unlock()
-	if p.bar != nil {
-		p.bar.Finish()
+	if p.done == nil {
+		return
+	}
+	var b strings.Builder
+	if p.drawn > 0 {
+		fmt.Fprintf(&b, "\x1b[%dA", p.drawn)
+	}
+	elapsed := time.Since(p.start).Seconds()
+	const width = 30
+	for c := range p.done {
+		frac := float64(p.done[c]) / float64(max(p.total[c], 1))
+		eta := "?"
+		if frac > 0.01 {
+			eta = (time.Duration(elapsed*(1-frac)/frac) * time.Second).Round(time.Second).String()
+		}
+		n := int(frac * width)
+		fmt.Fprintf(&b, "\r\x1b[Kchain %d [%s%s] %3.0f%%  %d/%d sweeps  ETA %s\n", c+1,
+			strings.Repeat("=", n), strings.Repeat(" ", width-n), 100*frac, p.done[c], p.total[c], eta)
+	}
+	p.drawn = len(p.done)
+	io.WriteString(p.w, b.String())
+}
+
+// finish stops redrawing and clears the lines.
+func (p *chainProgress) finish() {
+	close(p.stop)
+	<-p.stopped
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	if p.drawn > 0 {
+		fmt.Fprintf(p.w, "\x1b[%dA", p.drawn)
+		for range p.drawn {
+			io.WriteString(p.w, "\r\x1b[K\n")
+		}
+		fmt.Fprintf(p.w, "\x1b[%dA", p.drawn)
 	}
 }
