@@ -26,7 +26,12 @@ func ParseSummary(raw []byte) (*Summary, error) {
 		out.Parameters = append(out.Parameters, e.entry())
 	}
 	for _, e := range s.Derived {
-		out.Derived = append(out.Derived, e.entry())
+		d := e.entry()
+		switch d.Kind {
+		case "std_autoregression", "std_crosslag", "icc":
+			d.table = true
+		}
+		out.Derived = append(out.Derived, d)
 	}
 	return &out, nil
 }

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 
+	"github.com/lagstar/lagstar/fit"
 	"github.com/lagstar/lagstar/model"
 	"github.com/lagstar/lagstar/report"
 	"github.com/spf13/cobra"
@@ -13,21 +14,29 @@ import (
 func newReportCmd(stdout, stderr io.Writer) *cobra.Command {
 	var table, out string
 	cmd := &cobra.Command{
-		Use:   "report RUN_DIR --table md|latex|csv [--out FILE]",
-		Short: "Write the key estimates of a finished fit as a table for a manuscript",
-		Long: `report reads the summary.json of a fit's output folder and writes the key
-estimates, ready to paste: thresholds, random-intercept variances and
-correlations, carry-over and cross-lags (raw and within-person standardized),
-residual correlations and latent ICCs, each with its posterior mean and
-central interval. --table md gives Markdown, latex a tabular, csv one row per
-quantity. (The HTML report with figures is not available yet.)`,
-		Example: "  lagstar report diary-fit --table md\n  lagstar report diary-fit --table latex --out table1.tex",
+		Use:   "report RUN_DIR [--table md|latex|csv] [--out FILE]",
+		Short: "Write an HTML report, or a table for a manuscript, of a finished fit",
+		Long: `report reads a fit's output folder. Without --table it writes
+RUN_DIR/report.html: one self-contained page (figures embedded, no network)
+with the model and data, warnings, cautions, the estimates, trace, rank and
+density plots, and the posterior predictive checks when lagstar check has
+been run. With --table it writes the key estimates, ready to paste:
+thresholds, random-intercept variances and correlations, carry-over and
+cross-lags (raw and within-person standardized), residual correlations and
+latent ICCs, each with its posterior mean and central interval (md:
+Markdown, latex: a tabular, csv: one row per quantity).`,
+		Example: "  lagstar report diary-fit\n  lagstar report diary-fit --table md\n  lagstar report diary-fit --table latex --out table1.tex",
 		Args:    cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			switch table {
 			case "md", "latex", "csv":
 			case "":
-				return &usageError{fmt.Errorf("--table: give md, latex or csv (the HTML report is not available yet)")}
+				path, err := fit.HTMLReport(args[0])
+				if err != nil {
+					return err
+				}
+				fmt.Fprintf(stderr, "wrote %s\n", path)
+				return nil
 			default:
 				return &usageError{fmt.Errorf("--table: expected md, latex or csv, got %q", table)}
 			}

@@ -1,0 +1,271 @@
+package report
+
+import (
+	"bytes"
+	"encoding/base64"
+	"fmt"
+	"html"
+	"image/color"
+	"io"
+	"math"
+	"slices"
+	"strings"
+
+	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/plotter"
+	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
+	"gonum.org/v1/plot/vg/vgimg"
+)
+
+// Draws holds a run's kept draws by column: Values[chain][column][draw].
+type Draws struct {
+	Names  []string
+	Values [][][]float64
+}
+
+// PPCStat is one posterior predictive statistic for the report.
+type PPCStat struct {
+	Name, Kind                              string
+	Observed, RepMean, RepLow, RepHigh, PPP float64
+}
+
+var chainColors = []color.Color{
+	color.RGBA{R: 31, G: 119, B: 180, A: 255}, color.RGBA{R: 255, G: 127, B: 14, A: 255},
+	color.RGBA{R: 44, G: 160, B: 44, A: 255}, color.RGBA{R: 214, G: 39, B: 40, A: 255},
+	color.RGBA{R: 148, G: 103, B: 189, A: 255}, color.RGBA{R: 140, G: 86, B: 75, A: 255},
+}
+
+// maxPanels caps the parameters drawn in one figure.
+const maxPanels = 24
+
+// WriteHTML writes one self-contained HTML page (figures embedded as PNG, no
+// network): the run, the model and data, warnings and cautions, the summary
+// table, trace, rank and density plots of the tabled quantities, and the
+// posterior predictive checks when ppc is not nil.
+func WriteHTML(w io.Writer, s *Summary, d *Draws, ppc []PPCStat) error {
+	var b strings.Builder
+	esc := html.EscapeString
+	b.WriteString(`<!DOCTYPE html><html lang="en"><head><meta charset="utf-8"><title>lagstar report</title><style>
+body{font-family:system-ui,sans-serif;max-width:1100px;margin:2em auto;color:#222}
+table{border-collapse:collapse;font-size:13px}td,th{padding:2px 8px;text-align:right}td:first-child,th:first-child{text-align:left}
+tr.warn td{background:#fde2e1}h2{border-bottom:1px solid #ccc;margin-top:1.6em}.caution{background:#fff6d6;padding:.6em 1em}
+img{max-width:100%}</style></head><body>`)
+	status := "complete"
+	if !s.Complete {
+		status = "INCOMPLETE (interrupted)"
+	}
+	fmt.Fprintf(&b, "<h1>lagstar report</h1><p>%s %s, seed %d, run %s.</p>", esc(s.Program), esc(s.Version), s.Seed, status)
+	fmt.Fprintf(&b, `<p class="caution">%s</p>`, esc(Caution))
+	m := s.Model
+	b.WriteString("<h2>Model and data</h2><ul>")
+	fmt.Fprintf(&b, "<li>Data: %s, %d rows, %d persons, %d occasions (%v)</li>", esc(m.DataFile), m.Rows, m.Persons, len(m.Occasions), m.Occasions)
+	for _, o := range m.Outcomes {
+		fmt.Fprintf(&b, "<li>Outcome %s: %s %s</li>", esc(o.Name), esc(o.Type), esc(strings.Join(o.Categories, ", ")))
+	}
+	fmt.Fprintf(&b, "<li>Random intercepts: %v; carry-over: %s; residual correlation: %v; paths over time: %s; first occasion: %s; means over time: %s</li>",
+		m.RandomIntercepts, esc(m.Lags), m.ResidualCorrelation, esc(m.PathsOverTime), esc(m.FirstOccasion), esc(m.MeansOverTime))
+	fmt.Fprintf(&b, "<li>Sampler: %d chains, %d warm-up, %d draws, threshold update %s</li>", m.Chains, m.Warmup, m.Draws, esc(m.ThresholdUpdate))
+	for _, p := range m.Priors {
+		fmt.Fprintf(&b, "<li>Prior: %s</li>", esc(p))
+	}
+	b.WriteString("</ul>")
+	if len(s.Warnings) > 0 {
+		b.WriteString("<h2>Warnings</h2><ul>")
+		for _, x := range s.Warnings {
+			fmt.Fprintf(&b, "<li>%s</li>", esc(x))
+		}
+		b.WriteString("</ul>")
+	}
+	b.WriteString("<h2>Estimates</h2><table><tr><th>parameter</th><th>mean</th><th>sd</th><th>lower</th><th>upper</th><th>R-hat</th><th>bulk-ESS</th><th>tail-ESS</th></tr>")
+	tabled := append(append([]Entry{}, s.Parameters...), tableOnly(s.Derived)...)
+	for _, e := range tabled {
+		cls := ""
+		if float64(e.Rhat) > RhatLimit || float64(e.ESSBulk) < ESSLimit || float64(e.ESSTail) < ESSLimit {
+			cls = ` class="warn"`
+		}
+		fmt.Fprintf(&b, "<tr%s><td>%s</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td></tr>", cls, esc(e.Name),
+			f3(e.Mean), f3(e.SD), f3(e.Lower), f3(e.Upper), fr(e.Rhat), f0(e.ESSBulk), f0(e.ESSTail))
+	}
+	b.WriteString("</table>")
+	var names []string
+	for _, e := range tabled {
+		if slices.Contains(d.Names, e.Name) {
+			names = append(names, e.Name)
+		}
+	}
+	if len(names) > maxPanels {
+		names = names[:maxPanels]
+	}
+	for _, fig := range []struct {
+		title string
+		fn    func(*plot.Plot, []([]float64))
+	}{{"Trace plots (each chain in its own colour)", tracePanel}, {"Rank plots (ranks of all draws, one line per chain; flat lines mean the chains agree)", rankPanel}, {"Posterior densities", densityPanel}} {
+		png, err := gridPNG(names, d, fig.fn)
+		if err != nil {
+			return err
+		}
+		fmt.Fprintf(&b, "<h2>%s</h2><img class=\"figure\" alt=\"%s\" src=\"data:image/png;base64,%s\">", esc(fig.title), esc(fig.title), base64.StdEncoding.EncodeToString(png))
+	}
+	if ppc != nil {
+		b.WriteString("<h2>Posterior predictive checks</h2>")
+		png, err := ppcPNG(ppc)
+		if err != nil {
+			return err
+		}
+		fmt.Fprintf(&b, "<img class=\"figure\" alt=\"posterior predictive checks\" src=\"data:image/png;base64,%s\">", base64.StdEncoding.EncodeToString(png))
+		b.WriteString("<table><tr><th>statistic</th><th>observed</th><th>replicated</th><th>90% lower</th><th>90% upper</th><th>p</th></tr>")
+		for _, p := range ppc {
+			cls := ""
+			if p.PPP < 0.05 || p.PPP > 0.95 {
+				cls = ` class="warn"`
+			}
+			fmt.Fprintf(&b, "<tr%s><td>%s</td><td>%.3f</td><td>%.3f</td><td>%.3f</td><td>%.3f</td><td>%.3f</td></tr>", cls, esc(p.Name), p.Observed, p.RepMean, p.RepLow, p.RepHigh, p.PPP)
+		}
+		b.WriteString("</table>")
+	} else {
+		b.WriteString("<h2>Posterior predictive checks</h2><p>Not run: use <code>lagstar check RUN_DIR</code>, then build the report again.</p>")
+	}
+	b.WriteString(`<script>window.addEventListener("load",function(){var n=0;document.querySelectorAll("img.figure").forEach(function(i){if(i.complete&&i.naturalWidth>0)n++});document.body.setAttribute("data-figures-loaded",n)});</script></body></html>`)
+	_, err := io.WriteString(w, b.String())
+	return err
+}
+
+// gridPNG draws one panel per name, filled by fn from the chains' draws.
+func gridPNG(names []string, d *Draws, fn func(*plot.Plot, [][]float64)) ([]byte, error) {
+	if len(names) == 0 {
+		return nil, fmt.Errorf("report: nothing to plot")
+	}
+	cols := min(len(names), 4)
+	rows := (len(names) + cols - 1) / cols
+	plots := make([][]*plot.Plot, rows)
+	for r := range plots {
+		plots[r] = make([]*plot.Plot, cols)
+	}
+	for q, name := range names {
+		col := slices.Index(d.Names, name)
+		chains := make([][]float64, len(d.Values))
+		for c := range d.Values {
+			chains[c] = d.Values[c][col]
+		}
+		p := plot.New()
+		p.Title.Text = name
+		p.Title.TextStyle.Font.Size = vg.Points(8)
+		p.X.Tick.Label.Font.Size = vg.Points(6)
+		p.Y.Tick.Label.Font.Size = vg.Points(6)
+		fn(p, chains)
+		plots[q/cols][q%cols] = p
+	}
+	img := vgimg.New(vg.Points(200*float64(cols)), vg.Points(140*float64(rows)))
+	dc := draw.New(img)
+	tiles := draw.Tiles{Rows: rows, Cols: cols, PadX: vg.Points(6), PadY: vg.Points(6), PadTop: vg.Points(2), PadBottom: vg.Points(2), PadLeft: vg.Points(2), PadRight: vg.Points(2)}
+	canvases := plot.Align(plots, tiles, dc)
+	for r := range plots {
+		for c := range plots[r] {
+			if plots[r][c] != nil {
+				plots[r][c].Draw(canvases[r][c])
+			}
+		}
+	}
+	var buf bytes.Buffer
+	_, err := vgimg.PngCanvas{Canvas: img}.WriteTo(&buf)
+	return buf.Bytes(), err
+}
+
+func tracePanel(p *plot.Plot, chains [][]float64) {
+	for c, x := range chains {
+		step := max(1, len(x)/400)
+		var xy plotter.XYs
+		for i := 0; i < len(x); i += step {
+			xy = append(xy, plotter.XY{X: float64(i + 1), Y: x[i]})
+		}
+		if l, err := plotter.NewLine(xy); err == nil {
+			l.Color = chainColors[c%len(chainColors)]
+			l.Width = vg.Points(0.5)
+			p.Add(l)
+		}
+	}
+}
+
+func rankPanel(p *plot.Plot, chains [][]float64) {
+	var all []float64
+	for _, x := range chains {
+		all = append(all, x...)
+	}
+	sorted := slices.Clone(all)
+	slices.Sort(sorted)
+	const bins = 20
+	for c, x := range chains {
+		count := make([]float64, bins)
+		for _, v := range x {
+			r, _ := slices.BinarySearch(sorted, v)
+			count[min(r*bins/len(sorted), bins-1)]++
+		}
+		var xy plotter.XYs
+		for k, n := range count {
+			xy = append(xy, plotter.XY{X: float64(k), Y: n}, plotter.XY{X: float64(k + 1), Y: n})
+		}
+		if l, err := plotter.NewLine(xy); err == nil {
+			l.Color = chainColors[c%len(chainColors)]
+			p.Add(l)
+		}
+	}
+	p.Y.Min = 0
+}
+
+func densityPanel(p *plot.Plot, chains [][]float64) {
+	var all plotter.Values
+	for _, x := range chains {
+		all = append(all, x...)
+	}
+	if h, err := plotter.NewHist(all, 40); err == nil {
+		h.Normalize(1)
+		h.FillColor = color.RGBA{R: 120, G: 150, B: 200, A: 255}
+		h.LineStyle.Width = 0
+		p.Add(h)
+	}
+}
+
+// ppcPNG draws, for each statistic, the replicated 90% interval and the
+// observed value (a dot; red when its p-value is outside (0.05, 0.95)).
+func ppcPNG(stats []PPCStat) ([]byte, error) {
+	if len(stats) > 60 {
+		stats = stats[:60]
+	}
+	p := plot.New()
+	p.Title.Text = "Observed (dots) against replicated 90% intervals"
+	p.X.Tick.Label.Rotation = math.Pi / 2
+	p.X.Tick.Label.XAlign = draw.XRight
+	p.X.Tick.Label.Font.Size = vg.Points(6)
+	names := make([]string, len(stats))
+	for k, s := range stats {
+		names[k] = s.Name
+		lo, hi := s.RepLow, s.RepHigh
+		bar, err := plotter.NewLine(plotter.XYs{{X: float64(k), Y: lo}, {X: float64(k), Y: hi}})
+		if err != nil {
+			return nil, err
+		}
+		bar.Width = vg.Points(3)
+		bar.Color = color.RGBA{R: 150, G: 170, B: 210, A: 255}
+		p.Add(bar)
+		dot, err := plotter.NewScatter(plotter.XYs{{X: float64(k), Y: s.Observed}})
+		if err != nil {
+			return nil, err
+		}
+		dot.Color = color.Black
+		if s.PPP < 0.05 || s.PPP > 0.95 {
+			dot.Color = color.RGBA{R: 210, A: 255}
+		}
+		p.Add(dot)
+	}
+	p.NominalX(names...)
+	var buf bytes.Buffer
+	wt, err := p.WriterTo(vg.Points(math.Max(400, 14*float64(len(stats)))), vg.Points(320), "png")
+	if err != nil {
+		return nil, err
+	}
+	if _, err := wt.WriteTo(&buf); err != nil {
+		return nil, err
+	}
+	return buf.Bytes(), nil
+}
