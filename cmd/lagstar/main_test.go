@@ -234,7 +234,7 @@ func TestReportTable(t *testing.T) {
 	} else if b, _ := os.ReadFile(tex); !strings.Contains(string(b), `\begin{tabular}`) {
 		t.Error("latex file lacks a tabular")
 	}
-	for _, args := range [][]string{{"report", out}, {"report", out, "--table", "pdf"}, {"report", filepath.Join(dir, "nope"), "--table", "md"}} {
+	for _, args := range [][]string{{"report", out, "--table", "pdf"}, {"report", filepath.Join(dir, "nope"), "--table", "md"}, {"report", filepath.Join(dir, "nope")}} {
 		if code, _, _ := runCLI(args...); code != 2 {
 			t.Errorf("%v: exit %d, want 2", args, code)
 		}
