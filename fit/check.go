@@ -80,6 +80,25 @@ func Check(o CheckOptions) (*check.Result, error) {
 	if err := report.WriteAtomic(filepath.Join(o.RunDir, "check.json"), append(out, '\n')); err != nil {
 		return nil, err
 	}
+	// One figure per kind of statistic: observed against replicated intervals.
+	byKind := map[string][]report.PPCStat{}
+	var kinds []string
+	for _, st := range res.Stats {
+		if _, ok := byKind[st.Kind]; !ok {
+			kinds = append(kinds, st.Kind)
+		}
+		byKind[st.Kind] = append(byKind[st.Kind], report.PPCStat{Name: st.Name, Kind: st.Kind, Observed: st.Observed,
+			RepMean: st.RepMean, RepLow: st.RepLow, RepHigh: st.RepHigh, PPP: st.PPP})
+	}
+	for _, k := range kinds {
+		png, err := report.PPCPlotPNG(byKind[k])
+		if err != nil {
+			return nil, err
+		}
+		if err := report.WriteAtomic(filepath.Join(o.RunDir, "check_"+k+".png"), png); err != nil {
+			return nil, err
+		}
+	}
 	return res, nil
 }
 

@@ -109,7 +109,7 @@ img{max-width:100%}</style></head><body>`)
 	}
 	if ppc != nil {
 		b.WriteString("<h2>Posterior predictive checks</h2>")
-		png, err := ppcPNG(ppc)
+		png, err := PPCPlotPNG(ppc)
 		if err != nil {
 			return err
 		}
@@ -226,9 +226,10 @@ func densityPanel(p *plot.Plot, chains [][]float64) {
 	}
 }
 
-// ppcPNG draws, for each statistic, the replicated 90% interval and the
-// observed value (a dot; red when its p-value is outside (0.05, 0.95)).
-func ppcPNG(stats []PPCStat) ([]byte, error) {
+// PPCPlotPNG draws, for each statistic (the first 60), the replicated 90%
+// interval and the observed value (a dot; red when its p-value is outside
+// (0.05, 0.95)), as a PNG.
+func PPCPlotPNG(stats []PPCStat) ([]byte, error) {
 	if len(stats) > 60 {
 		stats = stats[:60]
 	}
