@@ -157,16 +157,7 @@ func gridPNG(names []string, d *Draws, fn func(*plot.Plot, [][]float64)) ([]byte
 		plots[q/cols][q%cols] = p
 	}
 	img := vgimg.New(vg.Points(200*float64(cols)), vg.Points(140*float64(rows)))
-	dc := draw.New(img)
-	tiles := draw.Tiles{Rows: rows, Cols: cols, PadX: vg.Points(6), PadY: vg.Points(6), PadTop: vg.Points(2), PadBottom: vg.Points(2), PadLeft: vg.Points(2), PadRight: vg.Points(2)}
-	canvases := plot.Align(plots, tiles, dc)
-	for r := range plots {
-		for c := range plots[r] {
-			if plots[r][c] != nil {
-				plots[r][c].Draw(canvases[r][c])
-			}
-		}
-	}
+	drawGrid(plots, draw.New(img))
 	var buf bytes.Buffer
 	_, err := vgimg.PngCanvas{Canvas: img}.WriteTo(&buf)
 	return buf.Bytes(), err

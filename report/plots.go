@@ -71,15 +71,7 @@ func RankHistogramsPNG(w io.Writer, title string, names []string, counts [][]int
 	dc.FillText(draw.TextStyle{Color: color.Black, Font: plot.DefaultFont, XAlign: draw.XCenter, YAlign: draw.YCenter, Handler: plot.DefaultTextHandler},
 		vg.Point{X: width / 2, Y: height - vg.Points(12)}, title)
 	body := draw.Crop(dc, 0, 0, 0, -vg.Points(24))
-	tiles := draw.Tiles{Rows: rows, Cols: cols, PadX: vg.Points(6), PadY: vg.Points(6), PadTop: vg.Points(2), PadBottom: vg.Points(2), PadLeft: vg.Points(2), PadRight: vg.Points(2)}
-	canvases := plot.Align(plots, tiles, body)
-	for r := range plots {
-		for c := range plots[r] {
-			if plots[r][c] != nil {
-				plots[r][c].Draw(canvases[r][c])
-			}
-		}
-	}
+	drawGrid(plots, body)
 	_, err := vgimg.PngCanvas{Canvas: img}.WriteTo(w)
 	return err
 }
@@ -99,4 +91,19 @@ func maxInt(xs []int) int {
 		m = max(m, x)
 	}
 	return m
+}
+
+// drawGrid lays the plots out as a rows x columns grid on dc and draws them
+// (nil plots leave their tile empty).
+func drawGrid(plots [][]*plot.Plot, dc draw.Canvas) {
+	tiles := draw.Tiles{Rows: len(plots), Cols: len(plots[0]), PadX: vg.Points(6), PadY: vg.Points(6),
+		PadTop: vg.Points(2), PadBottom: vg.Points(2), PadLeft: vg.Points(2), PadRight: vg.Points(2)}
+	canvases := plot.Align(plots, tiles, dc)
+	for r := range plots {
+		for c := range plots[r] {
+			if plots[r][c] != nil {
+				plots[r][c].Draw(canvases[r][c])
+			}
+		}
+	}
 }
