@@ -17,7 +17,8 @@ func TestDependencyDirection(t *testing.T) {
 		"model":          {"sampler", "priors", "latentresp", "diagnostics", "report", "fit", "cmd"},
 		"sampler":        {"report", "fit", "cmd", "diagnostics"},
 		"report":         {"fit", "cmd", "check"},
-		"check":          {"fit", "cmd", "report", "validate"},
+		"check":          {"fit", "cmd", "report", "validate", "compare"},
+		"compare":        {"fit", "cmd", "report", "validate", "check"},
 		"internal/dense": {"model", "sampler", "priors", "report", "fit"},
 	}
 	for pkg, bad := range forbidden {

@@ -25,51 +25,17 @@ type CheckOptions struct {
 }
 
 // Check runs the posterior predictive checks of a finished fit from its
-// run folder (run.json, data.csv, draws.csv) and writes check.json there.
+// run folder (run.json, data.csv, draws.csv) and writes check.json and one
+// figure per kind of statistic there.
 func Check(o CheckOptions) (*check.Result, error) {
 	if o.Draws <= 0 {
 		o.Draws = 400
 	}
-	rawRun, err := model.ReadRunFile(o.RunDir, "run.json")
+	run, err := loadRun(o.RunDir)
 	if err != nil {
 		return nil, err
 	}
-	var rec report.RunRecord
-	if err := json.Unmarshal(rawRun, &rec); err != nil {
-		return nil, model.Inputf(filepath.Join(o.RunDir, "run.json"), 0, "not valid: %v", err)
-	}
-	if !rec.Complete {
-		return nil, model.Inputf(o.RunDir, 0, "the run is incomplete (interrupted); check needs a finished run")
-	}
-	data, err := model.ReadRunFile(o.RunDir, "data.csv")
-	if err != nil {
-		return nil, err
-	}
-	if sum := sha256.Sum256(data); hex.EncodeToString(sum[:]) != rec.DataSHA256 {
-		return nil, model.Inputf(filepath.Join(o.RunDir, "data.csv"), 0, "does not match the data of the run (SHA-256 differs from run.json)")
-	}
-	sp, err := model.ParseSpec(filepath.Join(o.RunDir, "run.json: model_content"), []byte(rec.ModelContent))
-	if err != nil {
-		return nil, err
-	}
-	sp.Data.File = filepath.Join(o.RunDir, "data.csv")
-	pan, err := model.ParsePanel(sp, sp.Data.File, data)
-	if err != nil {
-		return nil, err
-	}
-	if err := model.Identify(sp, pan); err != nil {
-		return nil, err
-	}
-	l := sampler.NewLayout(sp, pan, priors.Default())
-	rawDraws, err := model.ReadRunFile(o.RunDir, "draws.csv")
-	if err != nil {
-		return nil, err
-	}
-	draws, err := parseDraws(rawDraws, l, filepath.Join(o.RunDir, "draws.csv"))
-	if err != nil {
-		return nil, err
-	}
-	res, err := check.Run(l, draws, o.Draws, o.Seed)
+	res, err := check.Run(run.layout, run.draws, o.Draws, o.Seed)
 	if err != nil {
 		return nil, err
 	}
@@ -100,6 +66,58 @@ func Check(o CheckOptions) (*check.Result, error) {
 		}
 	}
 	return res, nil
+}
+
+// finishedRun is a run folder read back: its layout (rebuilt from the
+// saved model and data copy), its draws and its record.
+type finishedRun struct {
+	layout *sampler.Layout
+	draws  [][]float64
+	rec    report.RunRecord
+}
+
+// loadRun reads a finished run folder.
+func loadRun(dir string) (*finishedRun, error) {
+	rawRun, err := model.ReadRunFile(dir, "run.json")
+	if err != nil {
+		return nil, err
+	}
+	var rec report.RunRecord
+	if err := json.Unmarshal(rawRun, &rec); err != nil {
+		return nil, model.Inputf(filepath.Join(dir, "run.json"), 0, "not valid: %v", err)
+	}
+	if !rec.Complete {
+		return nil, model.Inputf(dir, 0, "the run is incomplete (interrupted); a finished run is needed")
+	}
+	data, err := model.ReadRunFile(dir, "data.csv")
+	if err != nil {
+		return nil, err
+	}
+	if sum := sha256.Sum256(data); hex.EncodeToString(sum[:]) != rec.DataSHA256 {
+		return nil, model.Inputf(filepath.Join(dir, "data.csv"), 0, "does not match the data of the run (SHA-256 differs from run.json)")
+	}
+	sp, err := model.ParseSpec(filepath.Join(dir, "run.json: model_content"), []byte(rec.ModelContent))
+	if err != nil {
+		return nil, err
+	}
+	sp.Data.File = filepath.Join(dir, "data.csv")
+	pan, err := model.ParsePanel(sp, sp.Data.File, data)
+	if err != nil {
+		return nil, err
+	}
+	if err := model.Identify(sp, pan); err != nil {
+		return nil, err
+	}
+	l := sampler.NewLayout(sp, pan, priors.Default())
+	rawDraws, err := model.ReadRunFile(dir, "draws.csv")
+	if err != nil {
+		return nil, err
+	}
+	draws, err := parseDraws(rawDraws, l, filepath.Join(dir, "draws.csv"))
+	if err != nil {
+		return nil, err
+	}
+	return &finishedRun{layout: l, draws: draws, rec: rec}, nil
 }
 
 // parseDraws reads draws.csv into parameter vectors in the order of

@@ -21,7 +21,7 @@ lagged joint shares of pairs of outcomes (for continuous outcomes: means,
 spread of person means, lag-1 correlation). It prints a table and writes
 check.json into the run folder.`,
 		Example: "  lagstar check diary-fit",
-		Args:    cobra.ExactArgs(1),
+		Args:    args(cobra.ExactArgs(1)),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			o.RunDir = args[0]
 			res, err := fit.Check(o)

@@ -18,7 +18,7 @@ func newDemoCmd(stdout, stderr io.Writer) *cobra.Command {
 up to 42 days how rested they felt (1-5) and whether they had a headache
 (no/yes), with random intercepts and cross-lags. Nothing is written unless
 --out is given.`,
-		Args: cobra.NoArgs,
+		Args: args(cobra.NoArgs),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			if err := o.validate(); err != nil {
 				return err

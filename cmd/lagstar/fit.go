@@ -35,7 +35,7 @@ func newFitCmd(stdout, stderr io.Writer) *cobra.Command {
 chains and writes summary.json, draws.csv and run.json into the output
 folder. Flags override the model file's sampler settings.`,
 		Example: "  lagstar fit diary.yaml --out diary-fit --seed 7",
-		Args:    cobra.ExactArgs(1),
+		Args:    args(cobra.ExactArgs(1)),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			if err := o.validate(); err != nil {
 				return err

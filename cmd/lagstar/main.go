@@ -68,6 +68,17 @@ reports convergence diagnostics with every estimate.`,
 	root.SetFlagErrorFunc(func(c *cobra.Command, err error) error {
 		return &usageError{fmt.Errorf("%w (see %s --help)", err, c.CommandPath())}
 	})
-	root.AddCommand(newFitCmd(stdout, stderr), newDemoCmd(stdout, stderr), newSimulateCmd(stdout, stderr), newReportCmd(stdout, stderr), newCheckCmd(stdout, stderr))
+	root.AddCommand(newFitCmd(stdout, stderr), newDemoCmd(stdout, stderr), newSimulateCmd(stdout, stderr), newReportCmd(stdout, stderr), newCheckCmd(stdout, stderr), newCompareCmd(stdout, stderr))
 	return root
+}
+
+// args wraps a cobra argument check so that a wrong number of arguments is
+// a usage error (exit status 2).
+func args(check cobra.PositionalArgs) cobra.PositionalArgs {
+	return func(cmd *cobra.Command, a []string) error {
+		if err := check(cmd, a); err != nil {
+			return &usageError{fmt.Errorf("%w (see %s --help)", err, cmd.CommandPath())}
+		}
+		return nil
+	}
 }

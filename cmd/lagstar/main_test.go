@@ -266,3 +266,28 @@ func TestCheckCommand(t *testing.T) {
 		t.Errorf("missing run folder: exit %d, want 2", code)
 	}
 }
+
+func TestCompareCommand(t *testing.T) {
+	dir, mp := setup(t, goodModel, goodData())
+	own := filepath.Join(dir, "own")
+	cross := filepath.Join(dir, "cross")
+	if code, _, stderr := runCLI("fit", mp, "--out", cross, "--quiet"); code != 0 {
+		t.Fatalf("fit: %s", stderr)
+	}
+	ownModel := filepath.Join(dir, "own.yaml")
+	os.WriteFile(ownModel, []byte(strings.Replace(goodModel, "lags: cross", "lags: own", 1)), 0o644)
+	if code, _, stderr := runCLI("fit", ownModel, "--out", own, "--quiet"); code != 0 {
+		t.Fatalf("fit own: %s", stderr)
+	}
+	js := filepath.Join(dir, "cmp.json")
+	code, stdout, stderr := runCLI("compare", own, cross, "--draws", "20", "--ghk-points", "50", "--out", js)
+	if code != 0 || !strings.Contains(stdout, "elpd_loo") || !strings.Contains(stdout, "own") || !strings.Contains(stdout, "cross") {
+		t.Fatalf("compare: exit %d, stderr %s, output %q", code, stderr, stdout)
+	}
+	if raw, err := os.ReadFile(js); err != nil || !strings.Contains(string(raw), "elpd_diff") {
+		t.Errorf("comparison JSON missing (err %v)", err)
+	}
+	if code, _, _ := runCLI("compare", own); code != 2 {
+		t.Errorf("one run folder: exit %d, want 2", code)
+	}
+}

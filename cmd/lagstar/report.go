@@ -26,7 +26,7 @@ cross-lags (raw and within-person standardized), residual correlations and
 latent ICCs, each with its posterior mean and central interval (md:
 Markdown, latex: a tabular, csv: one row per quantity).`,
 		Example: "  lagstar report diary-fit\n  lagstar report diary-fit --table md\n  lagstar report diary-fit --table latex --out table1.tex",
-		Args:    cobra.ExactArgs(1),
+		Args:    args(cobra.ExactArgs(1)),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			switch table {
 			case "md", "latex", "csv":

@@ -29,7 +29,7 @@ truth file:
 Latent variances of categorical outcomes are 1 (identification); continuous
 outcomes need their variances. Use it to check a design before collecting data.`,
 		Example: "  lagstar simulate diary.yaml --truth truth.yaml --persons 150 --occasions 30 --out sim.csv --seed 3",
-		Args:    cobra.ExactArgs(1),
+		Args:    args(cobra.ExactArgs(1)),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			o.ModelPath = args[0]
 			if o.Out == "" {

@@ -1,0 +1,37 @@
+package main
+
+import (
+	"io"
+
+	"github.com/lagstar/lagstar/compare"
+	"github.com/lagstar/lagstar/fit"
+	"github.com/spf13/cobra"
+)
+
+func newCompareCmd(stdout, stderr io.Writer) *cobra.Command {
+	o := fit.CompareOptions{}
+	cmd := &cobra.Command{
+		Use:   "compare RUN_DIR RUN_DIR...",
+		Short: "Compare fitted models by person-level PSIS-LOO and WAIC",
+		Long: `compare ranks models fitted to the same data by how well they predict a
+new person's whole record: the person-level likelihood integrates out the
+random intercepts and within-person paths (GHK simulator, quasi-random points,
+the same points for every posterior draw), then PSIS-LOO with Pareto k
+diagnostics and WAIC, and elpd differences from the best model with their
+standard errors. Outcomes must be categorical.`,
+		Example: "  lagstar compare own-fit cross-fit --out comparison.json",
+		Args:    args(cobra.MinimumNArgs(2)),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			o.RunDirs = args
+			res, err := fit.Compare(o)
+			if err != nil {
+				return err
+			}
+			return compare.WriteTable(stdout, res)
+		},
+	}
+	cmd.Flags().IntVar(&o.Draws, "draws", 200, "posterior draws per model")
+	cmd.Flags().IntVar(&o.GHKPoints, "ghk-points", 300, "quasi-random points of the GHK simulator")
+	cmd.Flags().StringVar(&o.Out, "out", "", "also write the comparison as JSON to this file")
+	return cmd
+}

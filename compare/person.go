@@ -1,0 +1,161 @@
+package compare
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"runtime"
+	"slices"
+	"sync"
+
+	"github.com/lagstar/lagstar/internal/dense"
+	"github.com/lagstar/lagstar/sampler"
+)
+
+// LogLik returns the person-level log likelihoods log p(y_i | theta) for
+// every draw (rows) and person (columns), with the random intercepts and
+// within paths integrated out: y*_i is normal with mean nu and covariance
+// Psi on every pair of occasions plus the VAR(1) covariance of w, and y_i
+// is the event that each observed y* lies in its category's interval, a
+// rectangle probability estimated by GHK with R quasi-random points (the
+// same points for every draw: common random numbers). It also returns the
+// median relative Monte Carlo standard error of the GHK averages. Only
+// models whose outcomes are all categorical are supported.
+func LogLik(l *sampler.Layout, draws [][]float64, R int) ([][]float64, float64, error) {
+	for j, c := range l.Cat {
+		if !c {
+			return nil, 0, fmt.Errorf("outcome %q is continuous: person-level likelihoods are implemented for categorical outcomes only", l.Panel.Outcomes[j].Name)
+		}
+	}
+	u := Halton(R, l.MaxLen*l.J)
+	out := make([][]float64, len(draws))
+	rel := make([][]float64, len(draws))
+	errs := make([]error, len(draws))
+	workers := runtime.GOMAXPROCS(0)
+	var wg sync.WaitGroup
+	for w := 0; w < workers; w++ {
+		wg.Add(1)
+		go func(w int) {
+			defer wg.Done()
+			st := sampler.NewState(l, rand.New(rand.NewPCG(1, 2))) // starting values are overwritten
+			pw := newPersonWork(l)
+			for d := w; d < len(draws); d += workers {
+				if err := st.Inject(draws[d]); err != nil {
+					errs[d] = err
+					continue
+				}
+				out[d], rel[d] = make([]float64, l.N), make([]float64, l.N)
+				pw.prepare(st)
+				for i := 0; i < l.N; i++ {
+					out[d][i], rel[d][i] = pw.person(st, i, u)
+				}
+			}
+		}(w)
+	}
+	wg.Wait()
+	for _, e := range errs {
+		if e != nil {
+			return nil, 0, e
+		}
+	}
+	var all []float64
+	for _, r := range rel {
+		all = append(all, r...)
+	}
+	return out, median(all), nil
+}
+
+type personWork struct {
+	v                  []float64 // T blocks of J x J: Var(w_t)
+	blocks             []float64 // T x T blocks of J x J: Cov(w_t2, w_t1) for t1 <= t2
+	cov, chol          []float64 // n x n
+	mu, lo, hi, e, tmp []float64
+	idx                []int
+}
+
+func newPersonWork(l *sampler.Layout) *personWork {
+	n := l.MaxLen * l.J
+	return &personWork{v: make([]float64, l.T*l.J*l.J), blocks: make([]float64, l.T*l.T*l.J*l.J), cov: make([]float64, n*n), chol: make([]float64, n*n),
+		mu: make([]float64, n), lo: make([]float64, n), hi: make([]float64, n), e: make([]float64, n), tmp: make([]float64, l.J*l.J), idx: make([]int, n)}
+}
+
+// prepare computes the within-path covariances of the draw: V_1 = Sigma_1,
+// V_t = A_t V_{t-1} A_t' + Sigma_t, and Cov(w_t2, w_t1) = A_t2 Cov(w_t2-1, w_t1).
+func (pw *personWork) prepare(st *sampler.State) {
+	l := st.L
+	J, T := l.J, l.T
+	JJ := J * J
+	copy(pw.v[:JJ], st.Sig[:JJ])
+	for t := 1; t < T; t++ {
+		dense.Mul(pw.tmp, st.A[t*JJ:(t+1)*JJ], pw.v[(t-1)*JJ:t*JJ], J, J, J)
+		dense.MulBT(pw.v[t*JJ:(t+1)*JJ], pw.tmp, st.A[t*JJ:(t+1)*JJ], J, J, J)
+		for k := 0; k < JJ; k++ {
+			pw.v[t*JJ+k] += st.Sig[t*JJ+k]
+		}
+	}
+	for t1 := 0; t1 < T; t1++ {
+		copy(pw.blocks[(t1*T+t1)*JJ:(t1*T+t1+1)*JJ], pw.v[t1*JJ:(t1+1)*JJ])
+		for t2 := t1 + 1; t2 < T; t2++ {
+			dense.Mul(pw.blocks[(t1*T+t2)*JJ:(t1*T+t2+1)*JJ], st.A[t2*JJ:(t2+1)*JJ], pw.blocks[(t1*T+t2-1)*JJ:(t1*T+t2)*JJ], J, J, J)
+		}
+	}
+}
+
+// person returns log p(y_i | theta) and the GHK relative standard error.
+func (pw *personWork) person(st *sampler.State, i int, u [][]float64) (float64, float64) {
+	l := st.L
+	J := l.J
+	JJ := J * J
+	off := l.Panel.Offset[i]
+	T := l.Panel.Len[i]
+	// Observed cells.
+	n := 0
+	for c := 0; c < T*J; c++ {
+		if y := st.Y[off+c]; y == y {
+			pw.idx[n] = c
+			n++
+		}
+	}
+	if n == 0 {
+		return 0, 0
+	}
+	// cov(w_t[a], w_s[b]) for s >= t: (A_s ... A_{t+1} V_t)[b][a].
+	for p := 0; p < n; p++ {
+		cp := pw.idx[p]
+		tp, ap := cp/J, cp%J
+		for r := 0; r <= p; r++ {
+			cr := pw.idx[r]
+			tr, ar := cr/J, cr%J
+			// Occasions: tr <= tp since cells are in (t, j) order.
+			c := pw.blocks[(tr*l.T+tp)*JJ+ap*J+ar]
+			if l.RI {
+				c += st.Psi[ap*J+ar]
+			}
+			pw.cov[p*n+r], pw.cov[r*n+p] = c, c
+		}
+		j := cp % J
+		pw.mu[p] = st.Nu[cp]
+		k := int(st.Y[off+cp])
+		pw.lo[p], pw.hi[p] = math.Inf(-1), math.Inf(1)
+		if k > 0 {
+			pw.lo[p] = st.Tau[j][k-1]
+		}
+		if k < len(st.Tau[j]) {
+			pw.hi[p] = st.Tau[j][k]
+		}
+	}
+	copy(pw.chol, pw.cov[:n*n])
+	if !dense.Cholesky(pw.chol, n) {
+		return math.Inf(-1), math.Inf(1)
+	}
+	return GHK(pw.mu[:n], pw.chol[:n*n], pw.lo[:n], pw.hi[:n], n, u, pw.e)
+}
+
+func median(x []float64) float64 {
+	if len(x) == 0 {
+		return math.NaN()
+	}
+	s := slices.Clone(x)
+	slices.Sort(s)
+	return s[len(s)/2]
+}

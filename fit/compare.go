@@ -1,0 +1,69 @@
+package fit
+
+import (
+	"encoding/json"
+	"path/filepath"
+
+	"github.com/lagstar/lagstar/compare"
+	"github.com/lagstar/lagstar/model"
+	"github.com/lagstar/lagstar/report"
+)
+
+// CompareOptions says which runs to compare and how precisely.
+type CompareOptions struct {
+	RunDirs   []string
+	Draws     int    // posterior draws per model (0: 200)
+	GHKPoints int    // quasi-random points of the GHK simulator (0: 300)
+	Out       string // write the comparison as JSON here ("" writes none)
+}
+
+// Compare computes person-level PSIS-LOO and WAIC for every run and the
+// elpd differences from the best. The runs must share their data.
+func Compare(o CompareOptions) ([]compare.ModelResult, error) {
+	if len(o.RunDirs) < 2 {
+		return nil, model.Inputf("", 0, "compare needs at least two run folders")
+	}
+	if o.Draws <= 0 {
+		o.Draws = 200
+	}
+	if o.GHKPoints <= 0 {
+		o.GHKPoints = 300
+	}
+	var fits []compare.ModelFit
+	sha := ""
+	for _, dir := range o.RunDirs {
+		run, err := loadRun(dir)
+		if err != nil {
+			return nil, err
+		}
+		if sha == "" {
+			sha = run.rec.DataSHA256
+		} else if run.rec.DataSHA256 != sha {
+			return nil, model.Inputf(dir, 0, "was fitted to other data than %s; models can be compared only on the same data", o.RunDirs[0])
+		}
+		n := min(o.Draws, len(run.draws))
+		draws := make([][]float64, n)
+		for k := range draws {
+			draws[k] = run.draws[k*len(run.draws)/n]
+		}
+		ll, rel, err := compare.LogLik(run.layout, draws, o.GHKPoints)
+		if err != nil {
+			return nil, model.Inputf(dir, 0, "%v", err)
+		}
+		fits = append(fits, compare.ModelFit{Name: filepath.Base(filepath.Clean(dir)), LL: ll, GHKSE: rel})
+	}
+	res, err := compare.Compare(fits)
+	if err != nil {
+		return nil, err
+	}
+	if o.Out != "" {
+		b, err := json.MarshalIndent(res, "", "  ")
+		if err != nil {
+			return nil, err
+		}
+		if err := report.WriteAtomic(o.Out, append(b, '\n')); err != nil {
+			return nil, err
+		}
+	}
+	return res, nil
+}
