@@ -43,6 +43,12 @@ func (s Stat) Extreme() bool { return s.PPP < 0.05 || s.PPP > 0.95 }
 // given draws (each a parameter vector in the order of Layout.Params), and
 // compares the statistics with the observed data of l.
 func Run(l *sampler.Layout, draws [][]float64, n int, seed uint64) (*Result, error) {
+	return RunProgress(l, draws, n, seed, nil)
+}
+
+// RunProgress is Run that reports each replicated data set to progress
+// (done, total) when progress is not nil.
+func RunProgress(l *sampler.Layout, draws [][]float64, n int, seed uint64, progress func(done, total int)) (*Result, error) {
 	if len(draws) == 0 {
 		return nil, fmt.Errorf("check: no posterior draws")
 	}
@@ -60,6 +66,9 @@ func Run(l *sampler.Layout, draws [][]float64, n int, seed uint64) (*Result, err
 		_, v := statistics(l, y)
 		for k := range v {
 			reps[k] = append(reps[k], v[k])
+		}
+		if progress != nil {
+			progress(d+1, n)
 		}
 	}
 	res := &Result{Draws: n, Seed: seed}

@@ -7,6 +7,7 @@ import (
 	"runtime"
 	"slices"
 	"sync"
+	"sync/atomic"
 
 	"github.com/lagstar/lagstar/internal/dense"
 	"github.com/lagstar/lagstar/sampler"
@@ -22,6 +23,12 @@ import (
 // median relative Monte Carlo standard error of the GHK averages. Only
 // models whose outcomes are all categorical are supported.
 func LogLik(l *sampler.Layout, draws [][]float64, R int) ([][]float64, float64, error) {
+	return LogLikProgress(l, draws, R, nil)
+}
+
+// LogLikProgress is LogLik that reports the draws done to progress (done,
+// total; called from several goroutines) when progress is not nil.
+func LogLikProgress(l *sampler.Layout, draws [][]float64, R int, progress func(done, total int)) ([][]float64, float64, error) {
 	for j, c := range l.Cat {
 		if !c {
 			return nil, 0, fmt.Errorf("outcome %q is continuous: person-level likelihoods are implemented for categorical outcomes only", l.Panel.Outcomes[j].Name)
@@ -33,6 +40,7 @@ func LogLik(l *sampler.Layout, draws [][]float64, R int) ([][]float64, float64, 
 	errs := make([]error, len(draws))
 	workers := runtime.GOMAXPROCS(0)
 	var wg sync.WaitGroup
+	var done atomic.Int64
 	for w := 0; w < workers; w++ {
 		wg.Add(1)
 		go func(w int) {
@@ -48,6 +56,9 @@ func LogLik(l *sampler.Layout, draws [][]float64, R int) ([][]float64, float64, 
 				pw.prepare(st)
 				for i := 0; i < l.N; i++ {
 					out[d][i], rel[d][i] = pw.person(st, i, u)
+				}
+				if progress != nil {
+					progress(int(done.Add(1)), len(draws))
 				}
 			}
 		}(w)

@@ -19,9 +19,10 @@ import (
 // CheckOptions says which run to check and how many posterior draws to
 // replicate from.
 type CheckOptions struct {
-	RunDir string
-	Draws  int // 0: 400
-	Seed   uint64
+	RunDir   string
+	Draws    int // 0: 400
+	Seed     uint64
+	Progress func(done, total int)
 }
 
 // Check runs the posterior predictive checks of a finished fit from its
@@ -35,7 +36,7 @@ func Check(o CheckOptions) (*check.Result, error) {
 	if err != nil {
 		return nil, err
 	}
-	res, err := check.Run(run.layout, run.draws, o.Draws, o.Seed)
+	res, err := check.RunProgress(run.layout, run.draws, o.Draws, o.Seed, o.Progress)
 	if err != nil {
 		return nil, err
 	}

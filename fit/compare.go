@@ -15,6 +15,8 @@ type CompareOptions struct {
 	Draws     int    // posterior draws per model (0: 200)
 	GHKPoints int    // quasi-random points of the GHK simulator (0: 300)
 	Out       string // write the comparison as JSON here ("" writes none)
+	// Progress, if not nil, hears (model, models, draws done, draws).
+	Progress func(model, models, done, total int)
 }
 
 // Compare computes person-level PSIS-LOO and WAIC for every run and the
@@ -31,7 +33,7 @@ func Compare(o CompareOptions) ([]compare.ModelResult, error) {
 	}
 	var fits []compare.ModelFit
 	sha := ""
-	for _, dir := range o.RunDirs {
+	for m, dir := range o.RunDirs {
 		run, err := loadRun(dir)
 		if err != nil {
 			return nil, err
@@ -46,7 +48,11 @@ func Compare(o CompareOptions) ([]compare.ModelResult, error) {
 		for k := range draws {
 			draws[k] = run.draws[k*len(run.draws)/n]
 		}
-		ll, rel, err := compare.LogLik(run.layout, draws, o.GHKPoints)
+		var progress func(done, total int)
+		if o.Progress != nil {
+			progress = func(done, total int) { o.Progress(m, len(o.RunDirs), done, total) }
+		}
+		ll, rel, err := compare.LogLikProgress(run.layout, draws, o.GHKPoints, progress)
 		if err != nil {
 			return nil, model.Inputf(dir, 0, "%v", err)
 		}

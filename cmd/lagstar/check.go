@@ -24,7 +24,15 @@ check.json into the run folder.`,
 		Args:    args(cobra.ExactArgs(1)),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			o.RunDir = args[0]
+			var bar *chainProgress
+			if isTerminal(stderr) {
+				bar = newChainProgress(stderr, "replicates")
+				o.Progress = func(done, total int) { bar.update(0, 1, done, total) }
+			}
 			res, err := fit.Check(o)
+			if bar != nil {
+				bar.finish() // before the table: it clears its own lines
+			}
 			if err != nil {
 				return err
 			}

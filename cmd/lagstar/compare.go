@@ -23,7 +23,15 @@ standard errors. Outcomes must be categorical.`,
 		Args:    args(cobra.MinimumNArgs(2)),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			o.RunDirs = args
+			var bar *chainProgress
+			if isTerminal(stderr) {
+				bar = newChainProgress(stderr, "model")
+				o.Progress = bar.update
+			}
 			res, err := fit.Compare(o)
+			if bar != nil {
+				bar.finish() // before the table: it clears its own lines
+			}
 			if err != nil {
 				return err
 			}

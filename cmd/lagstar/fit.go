@@ -89,7 +89,7 @@ func (o *fitOptions) validate() error {
 func runFit(cmd *cobra.Command, fo fit.Options, o *fitOptions, stdout, stderr io.Writer) error {
 	var bar *chainProgress
 	if !o.quiet && isTerminal(stderr) {
-		bar = newChainProgress(stderr)
+		bar = newChainProgress(stderr, "chain")
 		fo.Progress = bar.update
 	}
 	res, err := fit.Fit(cmd.Context(), fo)
@@ -125,12 +125,14 @@ func isTerminal(w io.Writer) bool {
 	return err == nil && st.Mode()&os.ModeCharDevice != 0
 }
 
-// chainProgress draws one progress line per chain on a terminal (stderr),
-// each with its sweeps done and an estimated time left, redrawn in place a
-// few times a second. It is fed from the chain goroutines.
+// chainProgress draws one progress line per chain (or model, or other
+// unit) on a terminal (stderr), each with its steps done and an estimated
+// time left, redrawn in place a few times a second. It is safe for
+// concurrent use.
 type chainProgress struct {
 	mu      sync.Mutex
 	w       io.Writer
+	unit    string // what each line counts: "chain", "model", ...
 	done    []int
 	total   []int
 	start   time.Time
@@ -139,8 +141,8 @@ type chainProgress struct {
 	stopped chan struct{}
 }
 
-func newChainProgress(w io.Writer) *chainProgress {
-	p := &chainProgress{w: w, start: time.Now(), stop: make(chan struct{}), stopped: make(chan struct{})}
+func newChainProgress(w io.Writer, unit string) *chainProgress {
+	p := &chainProgress{w: w, unit: unit, start: time.Now(), stop: make(chan struct{}), stopped: make(chan struct{})}
 	go func() {
 		defer close(p.stopped)
 		tick := time.NewTicker(200 * time.Millisecond)
@@ -185,7 +187,7 @@ func (p *chainProgress) draw() {
 			eta = (time.Duration(elapsed*(1-frac)/frac) * time.Second).Round(time.Second).String()
 		}
 		n := int(frac * width)
-		fmt.Fprintf(&b, "\r\x1b[Kchain %d [%s%s] %3.0f%%  %d/%d sweeps  ETA %s\n", c+1,
+		fmt.Fprintf(&b, "\r\x1b[K%s %d [%s%s] %3.0f%%  %d/%d  ETA %s\n", p.unit, c+1,
 			strings.Repeat("=", n), strings.Repeat(" ", width-n), 100*frac, p.done[c], p.total[c], eta)
 	}
 	p.drawn = len(p.done)
