@@ -122,14 +122,19 @@ func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
 		if err == io.EOF {
 			break
 		}
-		line, _ := r.FieldPos(0)
 		if err != nil {
+			line := 0
+			var pe *csv.ParseError
+			if errors.As(err, &pe) {
+				line = pe.StartLine
+			}
 			p.addf(file, line, "%v", csvMsg(err))
 			if len(p.errs) >= maxReported {
 				break
 			}
 			continue
 		}
+		line, _ := r.FieldPos(0)
 		if len(rec) == 1 && strings.TrimSpace(rec[0]) == "" {
 			continue // blank line
 		}

@@ -1,0 +1,107 @@
+package model
+
+import (
+	"bytes"
+	"encoding/csv"
+	"math"
+	"strconv"
+	"testing"
+)
+
+// FuzzParseSpec: the model-file parser never panics, and every error it
+// returns is an InputError (exit status 2, never an internal failure).
+func FuzzParseSpec(f *testing.F) {
+	f.Add([]byte(spec2))
+	f.Add([]byte("data: {file: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\nsampler: {seed: 3, chains: 2}\n"))
+	f.Add([]byte("outcomes:\n  - name: y\n    type: ordinal\n    labels: [lo, mid, hi]\n"))
+	f.Add([]byte("data: [\n"))
+	f.Fuzz(func(t *testing.T, raw []byte) {
+		sp, err := ParseSpec("fuzz.yaml", raw)
+		if err != nil {
+			if !IsInputError(err) {
+				t.Fatalf("error %v is not an InputError", err)
+			}
+			return
+		}
+		if len(sp.Outcomes) == 0 {
+			t.Fatal("a spec without outcomes was accepted")
+		}
+	})
+}
+
+// FuzzParsePanel: the CSV loader never panics; errors are InputErrors;
+// an accepted panel is consistent (cells in range), and writing its cells
+// back as CSV and parsing again gives the same panel (round trip).
+func FuzzParsePanel(f *testing.F) {
+	f.Add([]byte("who,wave,mood,sick\nbo,5,2,no\nal,1,1,yes\nal,5,4,NA\nbo,1,3,\n"))
+	f.Add([]byte("who,wave,mood,sick\n1,1,1,no\n1,2,7,yes\n"))
+	f.Add([]byte("who,wave,mood,sick\n\"a,b\",1,1,no\n"))
+	f.Add([]byte("\xef\xbb\xbfwho,wave,mood,sick\nx,2.0,3,yes\n"))
+	sp, err := ParseSpec("m.yaml", []byte(spec2))
+	if err != nil {
+		f.Fatal(err)
+	}
+	f.Fuzz(func(t *testing.T, raw []byte) {
+		pan, err := ParsePanel(sp, "fuzz.csv", raw)
+		if err != nil {
+			if !IsInputError(err) {
+				t.Fatalf("error %v is not an InputError", err)
+			}
+			return
+		}
+		J := pan.J()
+		for c, v := range pan.Y {
+			if math.IsNaN(v) {
+				continue
+			}
+			if o := pan.Outcomes[c%J]; o.K > 0 && (v < 0 || int(v) >= o.K || v != math.Trunc(v)) {
+				t.Fatalf("cell %d = %v outside 0..%d", c, v, o.K-1)
+			}
+		}
+		again, err := ParsePanel(sp, "again.csv", writePanel(pan, sp))
+		if err != nil {
+			t.Fatalf("re-reading the written panel: %v", err)
+		}
+		if len(again.Persons) != len(pan.Persons) || len(again.Y) != len(pan.Y) {
+			t.Fatalf("round trip changed the panel: %d persons/%d cells, then %d/%d", len(pan.Persons), len(pan.Y), len(again.Persons), len(again.Y))
+		}
+		for c := range pan.Y {
+			a, b := pan.Y[c], again.Y[c]
+			if !(a == b || math.IsNaN(a) && math.IsNaN(b)) {
+				t.Fatalf("round trip changed cell %d: %v then %v", c, a, b)
+			}
+		}
+	})
+}
+
+// writePanel writes a panel's observed cells back as long CSV with the
+// spec's column names (the writer of the round trip).
+func writePanel(pan *Panel, sp *Spec) []byte {
+	var b bytes.Buffer
+	w := csv.NewWriter(&b)
+	head := []string{sp.Data.Person, sp.Data.Occasion}
+	for _, o := range sp.Outcomes {
+		head = append(head, o.Name)
+	}
+	w.Write(head)
+	J := pan.J()
+	for i, id := range pan.Persons {
+		for t := 0; t < pan.Len[i]; t++ {
+			rec := []string{id, strconv.Itoa(pan.Occasions[t])}
+			for j, o := range pan.Outcomes {
+				v := pan.Y[pan.Offset[i]+t*J+j]
+				switch {
+				case math.IsNaN(v):
+					rec = append(rec, "NA")
+				case o.K > 0:
+					rec = append(rec, o.Codes[int(v)])
+				default:
+					rec = append(rec, strconv.FormatFloat(v, 'g', -1, 64))
+				}
+			}
+			w.Write(rec)
+		}
+	}
+	w.Flush()
+	return b.Bytes()
+}
