@@ -85,13 +85,12 @@ func (tb *ThresholdBlock) Update(st *State, rng *rand.Rand) error {
 				cur = st.withinQuad(st.Ystar)
 			}
 			for range tb.moves {
-				next := tb.groupMove(st, rng, j, cur)
-				if next != cur {
-					// Latent responses of j moved.
+				var moved bool
+				cur, moved = tb.groupMove(st, rng, j, cur)
+				if moved { // latent responses of j changed
 					st.WQuadOK = false
 					st.Mom.ok = false
 				}
-				cur = next
 			}
 		}
 	}
@@ -130,8 +129,9 @@ func (tb *ThresholdBlock) albertChib(st *State, rng *rand.Rand, j int) {
 }
 
 // groupMove makes one joint move of outcome j's thresholds and latent
-// responses and returns the within-path log density after it.
-func (tb *ThresholdBlock) groupMove(st *State, rng *rand.Rand, j int, cur float64) float64 {
+// responses and returns the within-path log density after it and whether
+// the move was accepted.
+func (tb *ThresholdBlock) groupMove(st *State, rng *rand.Rand, j int, cur float64) (float64, bool) {
 	l := st.L
 	tau := st.Tau[j]
 	nt := len(tau)
@@ -193,7 +193,7 @@ func (tb *ThresholdBlock) groupMove(st *State, rng *rand.Rand, j int, cur float6
 		tb.tries[j]++
 		adapt(&tb.logStep[j], accepted, 0.3, tb.tries[j])
 	}
-	return cur
+	return cur, accepted
 }
 
 // adapt moves a log step size toward a target acceptance rate with a
