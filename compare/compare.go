@@ -7,6 +7,8 @@ import (
 	"slices"
 	"strconv"
 	"strings"
+
+	"gonum.org/v1/gonum/stat"
 )
 
 // ModelFit is one model's person-level log likelihood matrix
@@ -101,20 +103,12 @@ func Compare(models []ModelFit) ([]ModelResult, error) {
 	return out, nil
 }
 
+// variance is the sample variance (0 for fewer than two values).
 func variance(x []float64) float64 {
 	if len(x) < 2 {
 		return 0
 	}
-	m := 0.0
-	for _, v := range x {
-		m += v
-	}
-	m /= float64(len(x))
-	s := 0.0
-	for _, v := range x {
-		s += (v - m) * (v - m)
-	}
-	return s / float64(len(x)-1)
+	return stat.Variance(x, nil)
 }
 
 // WriteTable writes the comparison, best model first, with warnings for

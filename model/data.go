@@ -147,6 +147,10 @@ func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
 			p.addf(file, line, "column %q: person is missing", sp.Data.Person)
 			continue
 		}
+		if strings.ContainsAny(c.person, "\r\n") {
+			p.addf(file, line, "column %q: person %q contains a line break; use an id on one line", sp.Data.Person, c.person)
+			continue
+		}
 		occText := strings.TrimSpace(rec[idx[1]])
 		occ, ok := parseOccasion(occText)
 		if !ok {
