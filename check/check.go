@@ -12,6 +12,7 @@ import (
 	"slices"
 
 	"github.com/lagstar/lagstar/sampler"
+	"gonum.org/v1/gonum/stat"
 )
 
 // Stat is one checked statistic: its observed value, the central 90%
@@ -52,14 +53,15 @@ func RunProgress(l *sampler.Layout, draws [][]float64, n int, seed uint64, progr
 	if len(draws) == 0 {
 		return nil, fmt.Errorf("check: no posterior draws")
 	}
-	n = min(n, len(draws))
+	draws = sampler.EvenlySpaced(draws, n)
+	n = len(draws)
 	rng := rand.New(rand.NewPCG(seed, 0x636865636b))
 	st := sampler.NewState(l, rng)
 	names, obs := statistics(l, st.Y)
 	reps := make([][]float64, len(obs))
 	y := make([]float64, len(st.Y))
 	for d := 0; d < n; d++ {
-		if err := st.Inject(draws[d*len(draws)/n]); err != nil {
+		if err := st.Inject(draws[d]); err != nil {
 			return nil, err
 		}
 		st.Replicate(y, rng)
@@ -76,7 +78,7 @@ func RunProgress(l *sampler.Layout, draws [][]float64, n int, seed uint64, progr
 		s.Observed = obs[k]
 		r := slices.Clone(reps[k])
 		slices.Sort(r)
-		s.RepMean, s.RepLow, s.RepHigh = mean(r), quantile(r, 0.05), quantile(r, 0.95)
+		s.RepMean, s.RepLow, s.RepHigh = stat.Mean(r, nil), quantile(r, 0.05), quantile(r, 0.95)
 		above := 0.0
 		for _, v := range r {
 			switch {
@@ -90,14 +92,6 @@ func RunProgress(l *sampler.Layout, draws [][]float64, n int, seed uint64, progr
 		res.Stats = append(res.Stats, s)
 	}
 	return res, nil
-}
-
-func mean(x []float64) float64 {
-	s := 0.0
-	for _, v := range x {
-		s += v
-	}
-	return s / float64(len(x))
 }
 
 func quantile(s []float64, p float64) float64 {
@@ -298,28 +292,18 @@ func statistics(l *sampler.Layout, y []float64) ([]Stat, []float64) {
 	return st, v
 }
 
+// sd is the sample standard deviation (0 for fewer than two values).
 func sd(x []float64) float64 {
 	if len(x) < 2 {
 		return 0
 	}
-	m := mean(x)
-	s := 0.0
-	for _, v := range x {
-		s += (v - m) * (v - m)
-	}
-	return math.Sqrt(s / float64(len(x)-1))
+	return stat.StdDev(x, nil)
 }
 
+// corr is the Pearson correlation (0 for fewer than three pairs).
 func corr(x, y []float64) float64 {
 	if len(x) < 3 {
 		return 0
 	}
-	mx, my := mean(x), mean(y)
-	var sxy, sxx, syy float64
-	for i := range x {
-		sxy += (x[i] - mx) * (y[i] - my)
-		sxx += (x[i] - mx) * (x[i] - mx)
-		syy += (y[i] - my) * (y[i] - my)
-	}
-	return sxy / math.Sqrt(sxx*syy)
+	return stat.Correlation(x, y, nil)
 }

@@ -25,14 +25,7 @@ func fitAndCheck(t *testing.T, yaml string, csv []byte) *Result {
 	if err != nil {
 		t.Fatal(err)
 	}
-	np := len(res.Params)
-	var draws [][]float64
-	for c := range res.Draws {
-		for d := 0; d < res.Kept[c]; d++ {
-			draws = append(draws, res.Draws[c][d*np:(d+1)*np])
-		}
-	}
-	out, err := Run(l, draws, 200, 9)
+	out, err := Run(l, res.Vectors(), 200, 9)
 	if err != nil {
 		t.Fatal(err)
 	}

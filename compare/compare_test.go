@@ -25,18 +25,7 @@ func fitLL(t *testing.T, yaml string, csv []byte, S, R int) ModelFit {
 	if err != nil {
 		t.Fatal(err)
 	}
-	np := len(res.Params)
-	var all [][]float64
-	for c := range res.Draws {
-		for d := 0; d < res.Kept[c]; d++ {
-			all = append(all, res.Draws[c][d*np:(d+1)*np])
-		}
-	}
-	draws := make([][]float64, S)
-	for k := range draws {
-		draws[k] = all[k*len(all)/S]
-	}
-	ll, rel, err := LogLik(l, draws, R)
+	ll, rel, err := LogLik(l, sampler.EvenlySpaced(res.Vectors(), S), R)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -7,6 +7,7 @@ import (
 	"github.com/lagstar/lagstar/compare"
 	"github.com/lagstar/lagstar/model"
 	"github.com/lagstar/lagstar/report"
+	"github.com/lagstar/lagstar/sampler"
 )
 
 // CompareOptions says which runs to compare and how precisely.
@@ -43,11 +44,7 @@ func Compare(o CompareOptions) ([]compare.ModelResult, error) {
 		} else if run.rec.DataSHA256 != sha {
 			return nil, model.Inputf(dir, 0, "was fitted to other data than %s; models can be compared only on the same data", o.RunDirs[0])
 		}
-		n := min(o.Draws, len(run.draws))
-		draws := make([][]float64, n)
-		for k := range draws {
-			draws[k] = run.draws[k*len(run.draws)/n]
-		}
+		draws := sampler.EvenlySpaced(run.draws, o.Draws)
 		var progress func(done, total int)
 		if o.Progress != nil {
 			progress = func(done, total int) { o.Progress(m, len(o.RunDirs), done, total) }

@@ -126,19 +126,12 @@ func essSummary(tb testing.TB, res *Result, err error, chains, draws int) (float
 	if err != nil {
 		tb.Fatal(err)
 	}
-	np := len(res.Params)
 	minESS, arg := math.Inf(1), ""
 	for p, par := range res.Params {
 		if par.Kind == "mean" {
 			continue
 		}
-		ch := make([][]float64, chains)
-		for c := range ch {
-			for d := 0; d < draws; d++ {
-				ch[c] = append(ch[c], res.Draws[c][d*np+p])
-			}
-		}
-		if e := diagnostics.ESSBulk(ch); e < minESS {
+		if e := diagnostics.ESSBulk(res.ParamChains(p, draws)); e < minESS {
 			minESS, arg = e, par.Name
 		}
 	}

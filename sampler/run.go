@@ -245,3 +245,41 @@ func Sweep(st *State, blocks []Block, rng *rand.Rand) error {
 	}
 	return nil
 }
+
+// Vectors returns every kept draw as a parameter vector (in the order of
+// Params), chain after chain. The vectors share storage with the result.
+func (r *Result) Vectors() [][]float64 {
+	np := len(r.Params)
+	var out [][]float64
+	for c := range r.Draws {
+		for d := 0; d < r.Kept[c]; d++ {
+			out = append(out, r.Draws[c][d*np:(d+1)*np])
+		}
+	}
+	return out
+}
+
+// ParamChains returns parameter p's draws, one slice per chain, the first
+// n draws of each (n <= min of Kept).
+func (r *Result) ParamChains(p, n int) [][]float64 {
+	np := len(r.Params)
+	out := make([][]float64, len(r.Draws))
+	for c := range r.Draws {
+		out[c] = make([]float64, n)
+		for d := 0; d < n; d++ {
+			out[c][d] = r.Draws[c][d*np+p]
+		}
+	}
+	return out
+}
+
+// EvenlySpaced returns n of the vectors, evenly spaced over all of them
+// (all of them when n >= len(v)).
+func EvenlySpaced(v [][]float64, n int) [][]float64 {
+	n = min(n, len(v))
+	out := make([][]float64, n)
+	for k := range out {
+		out[k] = v[k*len(v)/n]
+	}
+	return out
+}

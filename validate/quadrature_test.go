@@ -38,20 +38,13 @@ func fitDraws(t *testing.T, yaml, csv string, chains, warmup, draws int) map[str
 		t.Fatal(err)
 	}
 	out := map[string]diagnostics.Summary{}
-	np := len(res.Params)
 	for p, par := range res.Params {
-		ch := make([][]float64, chains)
-		for c := range ch {
-			for d := 0; d < draws; d++ {
-				ch[c] = append(ch[c], res.Draws[c][d*np+p])
-			}
-		}
-		out[par.Name] = diagnostics.Summarize(ch, 0.95)
+		out[par.Name] = diagnostics.Summarize(res.ParamChains(p, draws), 0.95)
 	}
 	return out
 }
 
-// moments returns the mean and sd of an unnormalized density on a grid
+// gridMoments returns the mean and sd of an unnormalized density on a grid
 // (trapezoid rule on a fine grid: the densities are smooth and decay fast).
 func gridMoments(logf func(x float64) float64, lo, hi float64, n int) (float64, float64) {
 	h := (hi - lo) / float64(n)
