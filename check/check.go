@@ -105,8 +105,9 @@ func quantile(s []float64, p float64) float64 {
 
 // statistics computes, on data y laid out as the panel (categories or
 // analysis-scale values, NaN missing): per categorical outcome, the category
-// shares per occasion, the lag-1 transition shares P(k2 | k1), the sd of
-// person means and the mean run length in one category; for each pair of
+// shares per occasion, the lag-1 and lag-2 transition shares P(k2 | k1),
+// the spread over persons of their lag-1 stay shares, the sd of person
+// means and the mean run length in one category; for each pair of
 // categorical outcomes, the same-occasion and lagged joint shares; for
 // continuous outcomes, the mean per occasion, the sd of person means and
 // the lag-1 correlation.
@@ -218,6 +219,30 @@ func statistics(l *sampler.Layout, y []float64) ([]Stat, []float64) {
 				}
 			}
 			add(Stat{Name: fmt.Sprintf("mean_run_length[%s]", names[j]), Kind: "run_length", Outcome: names[j]}, runLen/math.Max(runs, 1))
+			// Person-level lag-1 transitions: the spread over persons of
+			// each person's share of lag-1 steps that stay in the same
+			// category. The pooled transition table above is a function of
+			// the bivariate latent distribution at two adjacent occasions,
+			// which carry-over alone can match whatever the random
+			// intercepts; stable between-person differences show instead as
+			// persons who almost always stay and persons who often move.
+			var stay []float64
+			for i := 0; i < l.N; i++ {
+				var s, n float64
+				for t := 1; t < pan.Len[i]; t++ {
+					p, x := cell(i, t-1, j), cell(i, t, j)
+					if p == p && x == x {
+						n++
+						if p == x {
+							s++
+						}
+					}
+				}
+				if n > 0 {
+					stay = append(stay, s/n)
+				}
+			}
+			add(Stat{Name: fmt.Sprintf("sd_person_stay_share[%s]", names[j]), Kind: "person_transition", Outcome: names[j]}, sd(stay))
 		}
 		// Spread of person means.
 		var pm []float64

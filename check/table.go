@@ -9,6 +9,7 @@ import (
 var kindOrder = []struct{ kind, title string }{
 	{"transition", "lag-1 transitions P(now | before)"},
 	{"lag2_transition", "lag-2 transitions"},
+	{"person_transition", "spread over persons of lag-1 stay shares"},
 	{"run_length", "mean run length in one category"},
 	{"person_means", "spread (sd) of person means"},
 	{"lag1_correlation", "lag-1 correlation"},
@@ -19,7 +20,7 @@ var kindOrder = []struct{ kind, title string }{
 }
 
 // key kinds are always listed in full.
-var key = map[string]bool{"transition": true, "lag2_transition": true, "run_length": true, "person_means": true, "lag1_correlation": true}
+var key = map[string]bool{"transition": true, "lag2_transition": true, "person_transition": true, "run_length": true, "person_means": true, "lag1_correlation": true}
 
 // WriteTable writes a readable account of the checks: counts per kind of
 // statistic, the key statistics in full, and every other statistic whose
