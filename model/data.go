@@ -12,6 +12,7 @@ import (
 	"math"
 	"os"
 	"slices"
+	"sort"
 	"strconv"
 	"strings"
 )
@@ -54,6 +55,14 @@ func (p *Panel) T() int { return len(p.Occasions) }
 
 // Cells returns the number of person-occasion-outcome cells.
 func (p *Panel) Cells() int { return len(p.Y) }
+
+// CellOf returns the person, grid occasion and outcome of cell c of Y.
+func (p *Panel) CellOf(c int) (i, t, j int) {
+	i = sort.SearchInts(p.Offset, c+1) - 1
+	J := p.J()
+	r := c - p.Offset[i]
+	return i, r / J, r % J
+}
 
 // LoadPanel reads the CSV named by sp.Data.File.
 func LoadPanel(sp *Spec) (*Panel, error) {

@@ -2,6 +2,7 @@ package sampler
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -25,6 +26,12 @@ type Options struct {
 	// sweep with the chain index, the number of chains, the sweeps done and
 	// the sweeps per chain; it must be safe for concurrent use.
 	Progress func(chain, chains, done, total int)
+	// Checkpoint, if not nil, receives chain checkpoints (for Resume) from
+	// the chain goroutines: every CheckpointEvery sweeps (0: never) and
+	// when the chain stops, finished or cancelled. It must be safe for
+	// concurrent use; an error stops the run.
+	Checkpoint      func(chain int, data []byte) error
+	CheckpointEvery int
 }
 
 // Result holds the kept draws of every chain.
@@ -119,11 +126,13 @@ func Run(ctx context.Context, l *Layout, opt Options) (*Result, error) {
 type Runner struct {
 	l      *Layout
 	opt    Options
+	fp     string // checkpoint fingerprint
 	res    *Result
 	chains []*chain
 }
 
 type chain struct {
+	src    *rand.PCG // rng's source, whose state checkpoints save
 	rng    *rand.Rand
 	st     *State
 	blocks []Block
@@ -141,11 +150,18 @@ func Start(ctx context.Context, l *Layout, opt Options) (*Runner, error) {
 // startOpts is Start with an optional change to every chain's blocks
 // (tests and benchmarks compare variants of the sampler this way).
 func startOpts(ctx context.Context, l *Layout, opt Options, tweak func([]Block)) (*Runner, error) {
-	r := &Runner{l: l, opt: opt, res: &Result{Layout: l, Params: l.Params(), Derived: l.DerivedParams(), Options: opt,
+	r := newRunner(l, opt, tweak)
+	return r, r.run(ctx)
+}
+
+// newRunner creates every chain at its starting values.
+func newRunner(l *Layout, opt Options, tweak func([]Block)) *Runner {
+	r := &Runner{l: l, opt: opt, fp: fingerprint(l, opt), res: &Result{Layout: l, Params: l.Params(), Derived: l.DerivedParams(), Options: opt,
 		Draws: make([][]float64, opt.Chains), DerivedDraws: make([][]float64, opt.Chains), Kept: make([]int, opt.Chains)}}
 	for c, seed := range ChainSeeds(opt.Seed, opt.Chains) {
-		rng := rand.New(rand.NewPCG(seed[0], seed[1]))
-		ch := &chain{rng: rng, st: NewState(l, rng), blocks: blocksFor(l, opt), dw: NewDerivedWork(l)}
+		src := rand.NewPCG(seed[0], seed[1])
+		rng := rand.New(src)
+		ch := &chain{src: src, rng: rng, st: NewState(l, rng), blocks: blocksFor(l, opt), dw: NewDerivedWork(l)}
 		if tweak != nil {
 			tweak(ch.blocks)
 		}
@@ -153,7 +169,7 @@ func startOpts(ctx context.Context, l *Layout, opt Options, tweak func([]Block))
 		r.res.Draws[c] = make([]float64, 0, opt.Draws*len(r.res.Params))
 		r.res.DerivedDraws[c] = make([]float64, 0, opt.Draws*len(r.res.Derived))
 	}
-	return r, r.run(ctx, opt.Warmup+opt.Draws)
+	return r
 }
 
 // runOpts is Run with a change to the blocks.
@@ -168,14 +184,15 @@ func runOpts(ctx context.Context, l *Layout, opt Options, tweak func([]Block)) (
 // Extend runs draws more kept sweeps on every chain.
 func (r *Runner) Extend(ctx context.Context, draws int) error {
 	r.res.Options.Draws += draws
-	return r.run(ctx, draws)
+	return r.run(ctx)
 }
 
 // Result returns the draws so far. It shares storage with the runner.
 func (r *Runner) Result() *Result { return r.res }
 
-// run advances every chain by n sweeps in parallel.
-func (r *Runner) run(ctx context.Context, n int) error {
+// run advances every chain, in parallel, until it has the kept draws of
+// Options.Draws.
+func (r *Runner) run(ctx context.Context) error {
 	start := time.Now()
 	errs := make([]error, len(r.chains))
 	var wg sync.WaitGroup
@@ -183,7 +200,7 @@ func (r *Runner) run(ctx context.Context, n int) error {
 		wg.Add(1)
 		go func(c int) {
 			defer wg.Done()
-			errs[c] = r.advance(ctx, c, n)
+			errs[c] = r.advance(ctx, c)
 		}(c)
 	}
 	wg.Wait()
@@ -202,17 +219,36 @@ func (r *Runner) run(ctx context.Context, n int) error {
 	return nil
 }
 
-// advance runs chain c for n more sweeps, keeping those after warm-up.
-func (r *Runner) advance(ctx context.Context, c, n int) error {
+// advance runs chain c until it has the run's kept draws, or until ctx
+// is cancelled, and hands checkpoints to Options.Checkpoint: every
+// CheckpointEvery sweeps and once when it stops.
+func (r *Runner) advance(ctx context.Context, c int) error {
 	ch := r.chains[c]
 	res := r.res
-	end := ch.sweeps + n
 	total := r.opt.Warmup + res.Options.Draws
-	for ; ch.sweeps < end; ch.sweeps++ {
+	save := func() error {
+		if r.opt.Checkpoint == nil {
+			return nil
+		}
+		b, err := r.checkpoint(c)
+		if err == nil {
+			err = r.opt.Checkpoint(c, b)
+		}
+		if err != nil {
+			return fmt.Errorf("checkpoint after sweep %d: %w", ch.sweeps, err)
+		}
+		return nil
+	}
+	for ; ch.sweeps < total; ch.sweeps++ {
 		if ctx.Err() != nil {
 			break
 		}
 		sweep := ch.sweeps
+		if sweep > 0 && r.opt.CheckpointEvery > 0 && sweep%r.opt.CheckpointEvery == 0 {
+			if err := save(); err != nil {
+				return err
+			}
+		}
 		ch.st.Warmup = sweep < r.opt.Warmup
 		if err := Sweep(ch.st, ch.blocks, ch.rng); err != nil {
 			return fmt.Errorf("sweep %d: %w", sweep+1, err)
@@ -220,9 +256,9 @@ func (r *Runner) advance(ctx context.Context, c, n int) error {
 		if sweep >= r.opt.Warmup {
 			ch.buf = ch.st.Extract(ch.buf)
 			ch.dbuf = ch.st.ExtractDerived(ch.dbuf, ch.dw)
-			for _, v := range ch.buf {
+			for p, v := range ch.buf {
 				if math.IsNaN(v) || math.IsInf(v, 0) {
-					return fmt.Errorf("sweep %d: a parameter is not finite", sweep+1)
+					return fmt.Errorf("sweep %d: parameter %s is %v", sweep+1, res.Params[p].Name, v)
 				}
 			}
 			res.Draws[c] = append(res.Draws[c], ch.buf...)
@@ -233,17 +269,59 @@ func (r *Runner) advance(ctx context.Context, c, n int) error {
 			r.opt.Progress(c, r.opt.Chains, sweep+1, total)
 		}
 	}
-	return nil
+	return save()
 }
 
-// Sweep runs every block once.
+// Sweep runs every block once. An error, or a value that is not finite
+// left behind by a block, is reported with the block's name.
 func Sweep(st *State, blocks []Block, rng *rand.Rand) error {
 	for _, b := range blocks {
 		if err := b.Update(st, rng); err != nil {
-			return err
+			var be *BlockError
+			if errors.As(err, &be) {
+				return err
+			}
+			return &BlockError{Block: b.Name(), Msg: err.Error()}
+		}
+		if what := st.nonFinite(); what != "" {
+			return &BlockError{Block: b.Name(), Msg: what + " is not finite after this block"}
 		}
 	}
 	return nil
+}
+
+// nonFinite names the first parameter or latent response of the state that
+// is NaN or infinite, or returns "".
+func (s *State) nonFinite() string {
+	bad := func(x []float64) int {
+		for i, v := range x {
+			if v-v != 0 { // NaN or Inf
+				return i
+			}
+		}
+		return -1
+	}
+	if i := bad(s.Ystar); i >= 0 {
+		p, t, j := s.L.Panel.CellOf(i)
+		return fmt.Sprintf("the latent response of person %s at occasion %d, outcome %s,", s.L.Panel.Persons[p], s.L.Panel.Occasions[t], s.L.Panel.Outcomes[j].Name)
+	}
+	if i := bad(s.B); i >= 0 {
+		return fmt.Sprintf("the random intercept of person %s", s.L.Panel.Persons[i/s.L.J])
+	}
+	for j, tau := range s.Tau {
+		if bad(tau) >= 0 {
+			return fmt.Sprintf("a threshold of outcome %s", s.L.Panel.Outcomes[j].Name)
+		}
+	}
+	for _, x := range []struct {
+		name string
+		v    []float64
+	}{{"a mean", s.Mean}, {"a carry-over path", s.A}, {"the random-intercept covariance", s.Psi}, {"an innovation covariance", s.Sig}} {
+		if bad(x.v) >= 0 {
+			return x.name
+		}
+	}
+	return ""
 }
 
 // Vectors returns every kept draw as a parameter vector (in the order of

@@ -29,13 +29,16 @@ func shardBounds(n int) []int {
 	return b
 }
 
-// shardRngs derives one stream per shard from the chain's stream.
-func shardRngs(rng *rand.Rand, shards int) []*rand.Rand {
+// shardRngs derives one stream per shard from the chain's stream. It
+// returns the streams and their sources (whose states checkpoints save).
+func shardRngs(rng *rand.Rand, shards int) ([]*rand.Rand, []*rand.PCG) {
 	out := make([]*rand.Rand, shards)
+	src := make([]*rand.PCG, shards)
 	for s := range out {
-		out[s] = rand.New(rand.NewPCG(rng.Uint64(), rng.Uint64()))
+		src[s] = rand.NewPCG(rng.Uint64(), rng.Uint64())
+		out[s] = rand.New(src[s])
 	}
-	return out
+	return out, src
 }
 
 // forShards runs fn for every shard of l's persons, [lo, hi), on up to

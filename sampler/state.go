@@ -52,6 +52,7 @@ type State struct {
 
 	// ShardRng holds one random stream per shard of persons (shard.go).
 	ShardRng []*rand.Rand
+	shardSrc []*rand.PCG
 	// Per-shard scratch and partial sums of withinQuad.
 	quadW, quadZ [][]float64
 	quadPart     []float64
@@ -106,7 +107,7 @@ func NewState(l *Layout, rng *rand.Rand) *State {
 		}
 		s.Tau[j] = tau
 	}
-	s.ShardRng = shardRngs(rng, len(l.ShardStart)-1)
+	s.ShardRng, s.shardSrc = shardRngs(rng, len(l.ShardStart)-1)
 	s.Mom = newMoments(l)
 	s.quadW, s.quadZ, s.quadPart = shardBufs(l, l.MaxLen*J), shardBufs(l, J), make([]float64, len(l.ShardStart)-1)
 	for i := range s.Mean {
