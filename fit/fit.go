@@ -8,6 +8,8 @@ import (
 	"crypto/rand"
 	"encoding/binary"
 	"fmt"
+	"os"
+	"path/filepath"
 	"time"
 
 	"github.com/lagstar/lagstar/model"
@@ -38,7 +40,11 @@ type Options struct {
 	// or MaxDraws per chain (0: the model file's, default 20000) is reached.
 	UntilConverged bool
 	MaxDraws       int
-	Progress       func(chain, chains, done, total int)
+	// CheckpointEvery (when CheckpointSet) overrides the model file's
+	// sampler.checkpoint_every: sweeps between chain checkpoints.
+	CheckpointEvery int
+	CheckpointSet   bool
+	Progress        func(chain, chains, done, total int)
 }
 
 // Outcome is what a fit produced.
@@ -79,7 +85,8 @@ func Prepare(o Options) (*sampler.Layout, error) {
 // Fit prepares the model, samples and, when OutDir is set, writes
 // summary.json, draws.csv and run.json. Bad input returns a
 // model.InputError before anything is written. A cancelled ctx yields an
-// incomplete run, written and marked as such.
+// incomplete run, written and marked as such, whose chain checkpoints
+// (OutDir/checkpoints) let Resume finish it.
 func Fit(ctx context.Context, o Options) (*Outcome, error) {
 	if o.Level == 0 {
 		o.Level = 0.95
@@ -87,13 +94,16 @@ func Fit(ctx context.Context, o Options) (*Outcome, error) {
 	if !(o.Level > 0 && o.Level < 1) {
 		return nil, model.Inputf("", 0, "--level: expected a number between 0 and 1, got %g", o.Level)
 	}
+	if o.CheckpointEvery < 0 {
+		return nil, model.Inputf("", 0, "--checkpoint-every: expected a whole number >= 0, got %d", o.CheckpointEvery)
+	}
 	l, err := Prepare(o)
 	if err != nil {
 		return nil, err
 	}
 	ss := l.Spec.Sampler
 	opt := sampler.Options{Chains: ss.Chains, Warmup: ss.Warmup, Draws: ss.Draws, Seed: ss.Seed, ThresholdUpdate: ss.ThresholdUpdate,
-		PathMoves: ss.PathMoves, Progress: o.Progress}
+		PathMoves: ss.PathMoves, Progress: o.Progress, CheckpointEvery: ss.CheckpointEvery}
 	if o.Chains > 0 {
 		opt.Chains = o.Chains
 	}
@@ -103,44 +113,133 @@ func Fit(ctx context.Context, o Options) (*Outcome, error) {
 	if o.Draws > 0 {
 		opt.Draws = o.Draws
 	}
+	if o.CheckpointSet {
+		opt.CheckpointEvery = o.CheckpointEvery
+	}
 	switch {
 	case o.SeedSet:
 		opt.Seed = o.Seed
 	case !ss.SeedSet:
 		opt.Seed = NewSeed()
 	}
-	started := time.Now()
-	runner, err := sampler.Start(ctx, l, opt)
-	if err != nil {
-		return nil, fmt.Errorf("sampling failed: %w", err)
+	j := &job{l: l, opt: opt, dir: o.OutDir, level: o.Level, started: time.Now(), rounds: 1,
+		untilConverged: o.UntilConverged || ss.UntilConverged, maxDraws: ss.MaxDraws}
+	if o.MaxDraws > 0 {
+		j.maxDraws = o.MaxDraws
 	}
+	if j.dir != "" {
+		if interruptedRun(j.dir) {
+			return nil, model.Inputf(j.dir, 0, "holds an unfinished run; finish it with lagstar fit --resume %s, or choose another --out folder (or remove this one)", j.dir)
+		}
+		if err := report.BeginRun(j.dir, l.Panel.Raw, j.record(nil)); err != nil {
+			return nil, fmt.Errorf("writing %s: %w", j.dir, err)
+		}
+		if err := j.prepareCheckpoints(); err != nil {
+			return nil, err
+		}
+	}
+	runner, err := sampler.Start(ctx, l, j.opt)
+	if err != nil {
+		return nil, j.failed(err)
+	}
+	return j.finish(ctx, runner)
+}
+
+// failed records in run.json that sampling stopped on err (so the folder
+// is neither taken for a result nor offered for resuming) and returns the
+// error to report.
+func (j *job) failed(err error) error {
+	err = fmt.Errorf("sampling failed: %w", err)
+	if j.dir != "" {
+		rec := j.record(nil)
+		rec.Status, rec.Error = report.StatusFailed, err.Error()
+		if werr := report.WriteRunRecord(j.dir, j.l.Panel.Raw, rec); werr != nil {
+			return fmt.Errorf("%w (and writing %s: %v)", err, j.dir, werr)
+		}
+		os.RemoveAll(filepath.Join(j.dir, checkpointDir))
+	}
+	return err
+}
+
+// job is one fit on its way: what it runs and where it writes.
+type job struct {
+	l              *sampler.Layout
+	opt            sampler.Options
+	dir            string
+	level          float64
+	started        time.Time
+	priorWall      float64 // seconds spent before a resume
+	untilConverged bool
+	maxDraws       int
+	rounds         int
+}
+
+// record is the run.json of the job: of res when it is not nil, else of a
+// fit that is starting or between rounds.
+func (j *job) record(res *sampler.Result) report.RunRecord {
+	running := res == nil
+	if running {
+		res = &sampler.Result{Layout: j.l, Options: j.opt, Kept: make([]int, j.opt.Chains)}
+	}
+	rec := report.NewRunRecord(res, Version, j.started)
+	if running {
+		rec.Status, rec.Complete = report.StatusRunning, false
+	}
+	rec.Level, rec.UntilConverged, rec.CheckpointEvery = j.level, j.untilConverged, j.opt.CheckpointEvery
+	if j.untilConverged {
+		rec.MaxDraws, rec.Rounds = j.maxDraws, j.rounds
+	}
+	rec.WallSeconds += report.Num(j.priorWall)
+	return rec
+}
+
+// finish samples the further rounds of a run until converged (when asked),
+// summarises and writes the run folder. Checkpoints are removed once the
+// run is complete.
+func (j *job) finish(ctx context.Context, runner *sampler.Runner) (*Outcome, error) {
 	res := runner.Result()
 	var rl *report.RunLength
-	if o.UntilConverged || ss.UntilConverged {
-		maxDraws := ss.MaxDraws
-		if o.MaxDraws > 0 {
-			maxDraws = o.MaxDraws
-		}
-		rl = &report.RunLength{Rounds: 1, MaxDraws: maxDraws}
+	if j.untilConverged {
+		rl = &report.RunLength{MaxDraws: j.maxDraws}
 		for {
 			ok, _ := report.Converged(res)
 			rl.Converged = ok
-			if ok || res.Options.Draws >= maxDraws || ctx.Err() != nil || res.Incomplete {
+			if ok || res.Options.Draws >= j.maxDraws || res.Incomplete {
 				break
 			}
-			if err := runner.Extend(ctx, min(res.Options.Draws, maxDraws-res.Options.Draws)); err != nil {
-				return nil, fmt.Errorf("sampling failed: %w", err)
+			if ctx.Err() != nil {
+				// Stopped between rounds: the run has not reached its end.
+				res.Incomplete = true
+				break
 			}
-			rl.Rounds++
+			j.rounds++
+			j.opt.Draws = res.Options.Draws + min(res.Options.Draws, j.maxDraws-res.Options.Draws)
+			if j.dir != "" {
+				// A run stopped without warning in this round resumes into it.
+				rec := j.record(nil)
+				rec.Status, rec.Kept = report.StatusRunning, res.Kept
+				if err := report.WriteRunRecord(j.dir, j.l.Panel.Raw, rec); err != nil {
+					return nil, fmt.Errorf("writing %s: %w", j.dir, err)
+				}
+			}
+			if err := runner.Extend(ctx, j.opt.Draws-res.Options.Draws); err != nil {
+				return nil, j.failed(err)
+			}
 		}
+		rl.Rounds = j.rounds
 		rl.DrawsPerChain = res.Options.Draws
 	}
-	sum := report.Build(res, o.Level, Version)
+	sum := report.Build(res, j.level, Version)
 	sum.RunLength = rl
-	rec := report.NewRunRecord(res, Version, started)
-	if o.OutDir != "" {
-		if err := report.WriteRun(o.OutDir, res, sum, rec); err != nil {
-			return nil, fmt.Errorf("writing %s: %w", o.OutDir, err)
+	rec := j.record(res)
+	if j.dir != "" {
+		if err := report.WriteRun(j.dir, res, sum, rec); err != nil {
+			return nil, fmt.Errorf("writing %s: %w", j.dir, err)
+		}
+		if !res.Incomplete {
+			if err := os.RemoveAll(filepath.Join(j.dir, checkpointDir)); err != nil {
+				return nil, err
+			}
 		}
 	}
 	return &Outcome{Summary: sum, Result: res, Record: rec}, nil

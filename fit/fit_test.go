@@ -121,3 +121,163 @@ func TestUntilConverged(t *testing.T) {
 		t.Errorf("summary says converged but %s", worst)
 	}
 }
+
+// fitDir runs the sleep-diary example into dir and returns the outcome.
+func fitDir(t *testing.T, ctx context.Context, dir string, o Options) *Outcome {
+	t.Helper()
+	m, d := examples.SleepDiary()
+	o.ModelPath, o.ModelRaw, o.DataRaw, o.OutDir, o.SeedSet = "m.yaml", m, d, dir, true
+	out, err := Fit(ctx, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return out
+}
+
+func readFile(t *testing.T, path string) []byte {
+	t.Helper()
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return b
+}
+
+// sameOutputs requires byte-identical draws.csv and summary.json.
+func sameOutputs(t *testing.T, want, got string) {
+	t.Helper()
+	for _, f := range []string{"draws.csv", "summary.json"} {
+		if !bytes.Equal(readFile(t, filepath.Join(want, f)), readFile(t, filepath.Join(got, f))) {
+			t.Errorf("%s of the resumed run differs from the uninterrupted run", f)
+		}
+	}
+}
+
+// TestResumeAfterInterrupt: a fit stopped part-way (Ctrl-C) is written,
+// marked interrupted in run.json and summary.json, and keeps one
+// checkpoint per chain; Resume finishes it with exactly the draws and
+// summary of the fit never stopped, and removes the checkpoints.
+func TestResumeAfterInterrupt(t *testing.T) {
+	o := Options{Chains: 3, Warmup: 40, Draws: 60, Seed: 21, CheckpointEvery: 25, CheckpointSet: true}
+	want := t.TempDir()
+	fitDir(t, context.Background(), want, o)
+	if _, err := os.Stat(filepath.Join(want, checkpointDir)); !os.IsNotExist(err) {
+		t.Errorf("a complete run keeps its checkpoints (stat: %v)", err)
+	}
+
+	dir := t.TempDir()
+	ctx, cancel := context.WithCancel(context.Background())
+	var once sync.Once
+	cut := o
+	cut.Progress = func(chain, chains, done, total int) {
+		if chain == 0 && done == 70 {
+			once.Do(cancel)
+		}
+	}
+	out := fitDir(t, ctx, dir, cut)
+	if !out.Result.Incomplete || out.Record.Complete || out.Record.Status != report.StatusInterrupted {
+		t.Fatalf("stopped fit: incomplete %v, record complete %v status %q", out.Result.Incomplete, out.Record.Complete, out.Record.Status)
+	}
+	if s := string(readFile(t, filepath.Join(dir, "run.json"))); !strings.Contains(s, `"status": "interrupted"`) {
+		t.Error("run.json does not say interrupted")
+	}
+	for c := 0; c < o.Chains; c++ {
+		if _, err := os.Stat(checkpointFile(dir, c)); err != nil {
+			t.Errorf("no checkpoint for chain %d: %v", c+1, err)
+		}
+	}
+	// A new fit into the folder would throw the interrupted run away.
+	m, d := examples.SleepDiary()
+	if _, err := Fit(context.Background(), Options{ModelPath: "m.yaml", ModelRaw: m, DataRaw: d, OutDir: dir}); err == nil ||
+		!strings.Contains(err.Error(), "--resume") {
+		t.Errorf("fit into a folder with an unfinished run: got %v, want a refusal naming --resume", err)
+	}
+	res, err := Resume(context.Background(), ResumeOptions{RunDir: dir})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Result.Incomplete || !res.Record.Complete {
+		t.Fatal("resumed run not complete")
+	}
+	sameOutputs(t, want, dir)
+	if _, err := os.Stat(filepath.Join(dir, checkpointDir)); !os.IsNotExist(err) {
+		t.Errorf("checkpoints kept after the run completed (stat: %v)", err)
+	}
+	if _, err := Resume(context.Background(), ResumeOptions{RunDir: dir}); err == nil || !strings.Contains(err.Error(), "already complete") {
+		t.Errorf("resuming a complete run: got %v", err)
+	}
+}
+
+// TestResumeAfterKill: a fit stopped without warning (as by a power cut or
+// a cluster's time limit) leaves run.json saying "running" and the last
+// periodic checkpoints, possibly none for some chains. Resume finishes it
+// with the draws of the fit never stopped.
+func TestResumeAfterKill(t *testing.T) {
+	o := Options{Chains: 3, Warmup: 30, Draws: 50, Seed: 5, CheckpointEvery: 20, CheckpointSet: true}
+	want := t.TempDir()
+	fitDir(t, context.Background(), want, o)
+
+	dir := t.TempDir()
+	saved := t.TempDir()
+	var mu sync.Mutex
+	cut := o
+	// Keep what the folder held right after chain 1's checkpoint at sweep
+	// 40 and chain 2's at sweep 20; chain 3 is taken to have none.
+	cut.Progress = func(chain, chains, done, total int) {
+		mu.Lock()
+		defer mu.Unlock()
+		if (chain == 0 && done == 41) || (chain == 1 && done == 21) {
+			b := readFile(t, checkpointFile(dir, chain))
+			os.WriteFile(filepath.Join(saved, filepath.Base(checkpointFile(dir, chain))), b, 0o644)
+		}
+		if chain == 0 && done == 1 {
+			os.WriteFile(filepath.Join(saved, "run.json"), readFile(t, filepath.Join(dir, "run.json")), 0o644)
+		}
+	}
+	fitDir(t, context.Background(), dir, cut)
+	// Put the folder back as the kill left it.
+	os.RemoveAll(filepath.Join(dir, checkpointDir))
+	os.Remove(filepath.Join(dir, "summary.json"))
+	os.Remove(filepath.Join(dir, "draws.csv"))
+	os.MkdirAll(filepath.Join(dir, checkpointDir), 0o755)
+	for _, c := range []int{0, 1} {
+		os.WriteFile(checkpointFile(dir, c), readFile(t, filepath.Join(saved, filepath.Base(checkpointFile(dir, c)))), 0o644)
+	}
+	running := readFile(t, filepath.Join(saved, "run.json"))
+	if !strings.Contains(string(running), `"status": "running"`) {
+		t.Fatalf("run.json during the fit does not say running:\n%s", running)
+	}
+	os.WriteFile(filepath.Join(dir, "run.json"), running, 0o644)
+	if _, err := Resume(context.Background(), ResumeOptions{RunDir: dir}); err != nil {
+		t.Fatal(err)
+	}
+	sameOutputs(t, want, dir)
+}
+
+// TestResumeUntilConverged: a fit extended in rounds and stopped in its
+// second round resumes into that round and goes on as the fit never
+// stopped would have.
+func TestResumeUntilConverged(t *testing.T) {
+	o := Options{Chains: 2, Warmup: 40, Draws: 30, Seed: 8, UntilConverged: true, MaxDraws: 100}
+	want := t.TempDir()
+	full := fitDir(t, context.Background(), want, o)
+	if rl := full.Summary.RunLength; rl == nil || rl.Rounds < 2 {
+		t.Fatalf("the uninterrupted fit should take several rounds: %+v", rl)
+	}
+	dir := t.TempDir()
+	ctx, cancel := context.WithCancel(context.Background())
+	var once sync.Once
+	cut := o
+	cut.Progress = func(chain, chains, done, total int) {
+		if chain == 1 && done == 40+45 { // in the second round (30 -> 60 draws)
+			once.Do(cancel)
+		}
+	}
+	if out := fitDir(t, ctx, dir, cut); !out.Result.Incomplete {
+		t.Fatal("stopped fit not incomplete")
+	}
+	if _, err := Resume(context.Background(), ResumeOptions{RunDir: dir}); err != nil {
+		t.Fatal(err)
+	}
+	sameOutputs(t, want, dir)
+}

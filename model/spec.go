@@ -110,6 +110,9 @@ type SamplerSpec struct {
 	// PathMoves adds exact-HMC moves of whole latent paths (all outcomes
 	// categorical only).
 	PathMoves bool
+	// CheckpointEvery is the number of sweeps between checkpoints of each
+	// chain (0: only when a chain stops).
+	CheckpointEvery int
 }
 
 // schema lists the keys allowed at each level of the model file.
@@ -120,7 +123,7 @@ var schema = map[string][]string{
 	"between":  {"random_intercepts"},
 	"within":   {"lags", "residual_correlation", "over_time", "first_occasion"},
 	"means":    {"over_time"},
-	"sampler":  {"chains", "warmup", "draws", "seed", "threshold_update", "until_converged", "max_draws", "path_moves"},
+	"sampler":  {"chains", "warmup", "draws", "seed", "threshold_update", "until_converged", "max_draws", "path_moves", "checkpoint_every"},
 }
 
 // ReadSpec reads and checks the model file at path. Every problem is an
@@ -152,7 +155,7 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 	sp.Data.Missing = []string{"", "NA"}
 	sp.Within.Lags = LagsCross
 	sp.Means.Free = true
-	sp.Sampler = SamplerSpec{Chains: 4, Warmup: 1000, Draws: 1000, ThresholdUpdate: ThresholdJoint, MaxDraws: 20000}
+	sp.Sampler = SamplerSpec{Chains: 4, Warmup: 1000, Draws: 1000, ThresholdUpdate: ThresholdJoint, MaxDraws: 20000, CheckpointEvery: 500}
 	r := &reader{file: path, p: p, schema: schema}
 	top := r.mapping(root, "")
 	if top == nil {
@@ -245,6 +248,9 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 		}
 		if v, ok := m["path_moves"]; ok {
 			sp.Sampler.PathMoves = r.boolean(v, "sampler.path_moves")
+		}
+		if v, ok := m["checkpoint_every"]; ok {
+			sp.Sampler.CheckpointEvery = r.intIn(v, "sampler.checkpoint_every", 0, 10_000_000)
 		}
 		if v, ok := m["max_draws"]; ok {
 			sp.Sampler.MaxDraws = r.intIn(v, "sampler.max_draws", 1, 10_000_000)

@@ -56,22 +56,34 @@ func DrawsCSV(res *sampler.Result) ([]byte, error) {
 
 // RunRecord is the content of run.json: what is needed to reproduce a run.
 type RunRecord struct {
-	Program         string    `json:"program"`
-	Version         string    `json:"version"`
-	GoVersion       string    `json:"go_version"`
-	ModelFile       string    `json:"model_file"`
-	ModelContent    string    `json:"model_content"`
-	DataFile        string    `json:"data_file"`
-	DataSHA256      string    `json:"data_sha256"`
-	Seed            uint64    `json:"seed"`
-	Chains          int       `json:"chains"`
-	Warmup          int       `json:"warmup"`
-	Draws           int       `json:"draws"`
-	ThresholdUpdate string    `json:"threshold_update"`
-	Complete        bool      `json:"complete"`
-	Kept            []int     `json:"kept_draws"`
-	WallSeconds     Num       `json:"wall_seconds"`
-	Started         time.Time `json:"started"`
+	Program         string  `json:"program"`
+	Version         string  `json:"version"`
+	GoVersion       string  `json:"go_version"`
+	ModelFile       string  `json:"model_file"`
+	ModelContent    string  `json:"model_content"`
+	DataFile        string  `json:"data_file"`
+	DataSHA256      string  `json:"data_sha256"`
+	Seed            uint64  `json:"seed"`
+	Chains          int     `json:"chains"`
+	Warmup          int     `json:"warmup"`
+	Draws           int     `json:"draws"`
+	ThresholdUpdate string  `json:"threshold_update"`
+	PathMoves       bool    `json:"path_moves"`
+	CheckpointEvery int     `json:"checkpoint_every"`
+	Level           float64 `json:"level"`
+	UntilConverged  bool    `json:"until_converged,omitempty"`
+	MaxDraws        int     `json:"max_draws,omitempty"`
+	Rounds          int     `json:"rounds,omitempty"`
+	// Status is "running" while a fit runs (a folder left so was stopped
+	// without warning: resume it), "interrupted" when it was stopped and
+	// wrote what it had, "complete" when it finished, "failed" when the
+	// sampler stopped on an error (Error says which).
+	Status      string    `json:"status"`
+	Error       string    `json:"error,omitempty"`
+	Complete    bool      `json:"complete"`
+	Kept        []int     `json:"kept_draws"`
+	WallSeconds Num       `json:"wall_seconds"`
+	Started     time.Time `json:"started"`
 }
 
 // NewRunRecord fills a RunRecord from a result.
@@ -80,8 +92,25 @@ func NewRunRecord(res *sampler.Result, version string, started time.Time) RunRec
 	return RunRecord{Program: Program, Version: version, GoVersion: runtime.Version(),
 		ModelFile: l.Spec.Path, ModelContent: string(l.Spec.Raw), DataFile: l.Panel.File, DataSHA256: l.Panel.SHA256,
 		Seed: res.Options.Seed, Chains: res.Options.Chains, Warmup: res.Options.Warmup, Draws: res.Options.Draws,
-		ThresholdUpdate: string(res.Options.ThresholdUpdate), Complete: !res.Incomplete, Kept: res.Kept,
+		ThresholdUpdate: string(res.Options.ThresholdUpdate), PathMoves: res.Options.PathMoves, CheckpointEvery: res.Options.CheckpointEvery,
+		Complete: !res.Incomplete, Status: StatusOf(res), Kept: res.Kept,
 		WallSeconds: Num(res.Elapsed.Seconds()), Started: started.UTC()}
+}
+
+// Run statuses in run.json.
+const (
+	StatusRunning     = "running"
+	StatusInterrupted = "interrupted"
+	StatusComplete    = "complete"
+	StatusFailed      = "failed"
+)
+
+// StatusOf is the status of a finished or stopped result.
+func StatusOf(res *sampler.Result) string {
+	if res.Incomplete {
+		return StatusInterrupted
+	}
+	return StatusComplete
 }
 
 // WriteRun writes data.csv (a copy of the data, for lagstar check),
@@ -117,6 +146,34 @@ func WriteRun(dir string, res *sampler.Result, s *Summary, rec RunRecord) error 
 		}
 	}
 	return nil
+}
+
+// BeginRun prepares dir for a fit that is starting: it removes the
+// summary and draws of an earlier run there (so nothing in dir can be taken
+// for the result of this run before it ends) and writes data.csv and
+// run.json, whose status says the fit is running.
+func BeginRun(dir string, data []byte, rec RunRecord) error {
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return fmt.Errorf("create output folder: %w", err)
+	}
+	for _, name := range []string{"summary.json", "draws.csv", "check.json", "report.html"} {
+		if err := os.Remove(filepath.Join(dir, name)); err != nil && !os.IsNotExist(err) {
+			return err
+		}
+	}
+	return WriteRunRecord(dir, data, rec)
+}
+
+// WriteRunRecord writes data.csv and run.json into dir.
+func WriteRunRecord(dir string, data []byte, rec RunRecord) error {
+	runJSON, err := json.MarshalIndent(rec, "", "  ")
+	if err != nil {
+		return err
+	}
+	if err := WriteAtomic(filepath.Join(dir, "data.csv"), data); err != nil {
+		return err
+	}
+	return WriteAtomic(filepath.Join(dir, "run.json"), append(runJSON, '\n'))
 }
 
 // WriteAtomic writes data to path through a temporary file in the same

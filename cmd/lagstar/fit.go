@@ -1,6 +1,7 @@
 package main
 
 import (
+	"errors"
 	"fmt"
 	"io"
 	"os"
@@ -23,22 +24,46 @@ type fitOptions struct {
 	quiet                 bool
 	untilConverged        bool
 	maxDraws              int
+	checkpointEvery       int
 	intro                 string // printed before the table (demo)
 }
 
 func newFitCmd(stdout, stderr io.Writer) *cobra.Command {
 	o := &fitOptions{}
+	var resume string
 	cmd := &cobra.Command{
-		Use:   "fit MODEL.yaml",
-		Short: "Fit the model described in a model file",
+		Use:   "fit MODEL.yaml | fit --resume RUN_DIR",
+		Short: "Fit the model described in a model file, or finish an interrupted fit",
 		Long: `fit reads the model file and the CSV it names, checks both, samples the
 chains and writes summary.json, draws.csv and run.json into the output
-folder. Flags override the model file's sampler settings.`,
-		Example: "  lagstar fit diary.yaml --out diary-fit --seed 7",
-		Args:    args(cobra.ExactArgs(1)),
+folder. Flags override the model file's sampler settings.
+
+Each chain saves a checkpoint in RUN_DIR/checkpoints every so many sweeps
+(--checkpoint-every) and when it is stopped (Ctrl-C, SIGTERM). A stopped
+run writes what it has, marked incomplete, and exits with status 1;
+fit --resume RUN_DIR finishes it with the draws an uninterrupted run with
+the same seed would have given.`,
+		Example: "  lagstar fit diary.yaml --out diary-fit --seed 7\n  lagstar fit --resume diary-fit",
+		Args:    args(cobra.MaximumNArgs(1)),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			if err := o.validate(); err != nil {
 				return err
+			}
+			if resume != "" {
+				if len(args) > 0 {
+					return &usageError{fmt.Errorf("--resume takes its settings from the run folder; give no model file (got %q)", args[0])}
+				}
+				for _, name := range []string{"out", "chains", "warmup", "draws", "seed", "level", "until-converged", "max-draws", "checkpoint-every"} {
+					if cmd.Flags().Changed(name) {
+						return &usageError{fmt.Errorf("--%s cannot be used with --resume: the run continues with the settings in %s/run.json", name, resume)}
+					}
+				}
+				return runFitWith(cmd, resume, o, stdout, stderr, func(progress func(chain, chains, done, total int)) (*fit.Outcome, error) {
+					return fit.Resume(cmd.Context(), fit.ResumeOptions{RunDir: resume, Progress: progress})
+				})
+			}
+			if len(args) != 1 {
+				return &usageError{fmt.Errorf("fit needs a model file, or --resume RUN_DIR (see %s --help)", cmd.CommandPath())}
 			}
 			out := o.out
 			if out == "" {
@@ -46,12 +71,15 @@ folder. Flags override the model file's sampler settings.`,
 				out = base + "-fit"
 			}
 			fo := fit.Options{ModelPath: args[0], OutDir: out, Chains: o.chains, Warmup: o.warmup, Draws: o.draws,
-				Seed: o.seed, SeedSet: cmd.Flags().Changed("seed"), Level: o.level, UntilConverged: o.untilConverged, MaxDraws: o.maxDraws}
+				Seed: o.seed, SeedSet: cmd.Flags().Changed("seed"), Level: o.level, UntilConverged: o.untilConverged, MaxDraws: o.maxDraws,
+				CheckpointEvery: o.checkpointEvery, CheckpointSet: cmd.Flags().Changed("checkpoint-every")}
 			return runFit(cmd, fo, o, stdout, stderr)
 		},
 	}
 	o.bind(cmd)
 	cmd.Flags().StringVar(&o.out, "out", "", "output folder (default: the model file's name with -fit)")
+	cmd.Flags().StringVar(&resume, "resume", "", "finish the interrupted fit in this run folder")
+	cmd.Flags().IntVar(&o.checkpointEvery, "checkpoint-every", 0, "sweeps between chain checkpoints (default from the model file, else 500; 0: only when stopped)")
 	return cmd
 }
 
@@ -78,6 +106,8 @@ func (o *fitOptions) validate() error {
 		return &usageError{fmt.Errorf("--draws: expected a whole number >= 1, got %d", o.draws)}
 	case !(o.level > 0 && o.level < 1):
 		return &usageError{fmt.Errorf("--level: expected a number between 0 and 1, got %g", o.level)}
+	case o.checkpointEvery < 0:
+		return &usageError{fmt.Errorf("--checkpoint-every: expected a whole number >= 0, got %d", o.checkpointEvery)}
 	case o.maxDraws < 0:
 		return &usageError{fmt.Errorf("--max-draws: expected a whole number >= 1, got %d", o.maxDraws)}
 	case o.format != "text" && o.format != "json":
@@ -87,21 +117,48 @@ func (o *fitOptions) validate() error {
 }
 
 func runFit(cmd *cobra.Command, fo fit.Options, o *fitOptions, stdout, stderr io.Writer) error {
+	return runFitWith(cmd, fo.OutDir, o, stdout, stderr, func(progress func(chain, chains, done, total int)) (*fit.Outcome, error) {
+		fo.Progress = progress
+		return fit.Fit(cmd.Context(), fo)
+	})
+}
+
+// errInterrupted is returned (exit status 1) after a stopped fit has
+// written what it had: scripts must not take it for a finished run.
+var errInterrupted = errors.New("the fit was interrupted; the run is incomplete")
+
+// runFitWith runs a fit or a resumed fit that writes into dir, with
+// progress on a terminal, then prints the summary.
+func runFitWith(cmd *cobra.Command, dir string, o *fitOptions, stdout, stderr io.Writer, do func(progress func(chain, chains, done, total int)) (*fit.Outcome, error)) error {
 	var bar *chainProgress
+	var progress func(chain, chains, done, total int)
 	if !o.quiet && isTerminal(stderr) {
 		bar = newChainProgress(stderr, "chain")
-		fo.Progress = bar.update
+		progress = bar.update
 	}
-	res, err := fit.Fit(cmd.Context(), fo)
+	res, err := do(progress)
 	if bar != nil {
 		bar.finish()
 	}
 	if err != nil {
 		return err
 	}
-	if fo.OutDir != "" && !o.quiet {
-		fmt.Fprintf(stderr, "wrote %s (summary.json, draws.csv, run.json) in %.1f s\n", fo.OutDir, res.Result.Elapsed.Seconds())
+	if dir != "" && !o.quiet {
+		fmt.Fprintf(stderr, "wrote %s (summary.json, draws.csv, run.json) in %.1f s\n", dir, res.Result.Elapsed.Seconds())
 	}
+	if err := printSummary(res, o, stdout); err != nil {
+		return err
+	}
+	if res.Result.Incomplete {
+		if dir != "" {
+			return fmt.Errorf("%w; finish it with: lagstar fit --resume %s", errInterrupted, dir)
+		}
+		return errInterrupted
+	}
+	return nil
+}
+
+func printSummary(res *fit.Outcome, o *fitOptions, stdout io.Writer) error {
 	if o.format == "json" {
 		b, err := res.Summary.JSON()
 		if err != nil {
@@ -135,6 +192,7 @@ type chainProgress struct {
 	unit    string // what each line counts: "chain", "model", ...
 	done    []int
 	total   []int
+	base    []int // steps already done when the first report came (a resumed run)
 	start   time.Time
 	drawn   int // lines on screen
 	stop    chan struct{}
@@ -163,7 +221,13 @@ func (p *chainProgress) update(chain, chains, done, total int) {
 	p.mu.Lock()
 	defer p.mu.Unlock()
 	if p.done == nil {
-		p.done, p.total = make([]int, chains), make([]int, chains)
+		p.done, p.total, p.base = make([]int, chains), make([]int, chains), make([]int, chains)
+		for c := range p.base {
+			p.base[c] = -1
+		}
+	}
+	if p.base[chain] < 0 {
+		p.base[chain] = done - 1
 	}
 	p.done[chain], p.total[chain] = done, total
 }
@@ -182,9 +246,12 @@ func (p *chainProgress) draw() {
 	const width = 30
 	for c := range p.done {
 		frac := float64(p.done[c]) / float64(max(p.total[c], 1))
+		// The rate counts only steps taken since this run started.
+		base := max(p.base[c], 0)
+		ran := float64(p.done[c]-base) / float64(max(p.total[c]-base, 1))
 		eta := "?"
-		if frac > 0.01 {
-			eta = (time.Duration(elapsed*(1-frac)/frac) * time.Second).Round(time.Second).String()
+		if ran > 0.01 {
+			eta = (time.Duration(elapsed*(1-ran)/ran) * time.Second).Round(time.Second).String()
 		}
 		n := int(frac * width)
 		fmt.Fprintf(&b, "\r\x1b[K%s %d [%s%s] %3.0f%%  %d/%d  ETA %s\n", p.unit, c+1,

@@ -291,3 +291,66 @@ func TestCompareCommand(t *testing.T) {
 		t.Errorf("one run folder: exit %d, want 2", code)
 	}
 }
+
+// TestInterruptThenResume: a fit stopped by a signal (here a context
+// cancelled before the first sweep) exits with status 1, says how to
+// finish it and leaves a folder marked incomplete; fit --resume finishes it
+// with the draws of an uninterrupted fit. Misuses of --resume exit 2.
+func TestInterruptThenResume(t *testing.T) {
+	dir, mp := setup(t, goodModel, goodData())
+	want := filepath.Join(dir, "whole")
+	if code, _, stderr := runCLI("fit", mp, "--out", want, "--quiet"); code != 0 {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	out := filepath.Join(dir, "cut")
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	var so, se bytes.Buffer
+	if code := run(ctx, []string{"fit", mp, "--out", out, "--quiet"}, &so, &se); code != 1 {
+		t.Fatalf("interrupted fit: exit %d, want 1; stderr: %s", code, se.String())
+	}
+	for _, w := range []string{"interrupted", "lagstar fit --resume " + out} {
+		if !strings.Contains(se.String(), w) {
+			t.Errorf("stderr lacks %q:\n%s", w, se.String())
+		}
+	}
+	if !strings.Contains(so.String(), "INCOMPLETE") {
+		t.Errorf("table does not say the run is incomplete:\n%s", so.String())
+	}
+	for _, f := range []string{"summary.json", "run.json"} {
+		raw, err := os.ReadFile(filepath.Join(out, f))
+		if err != nil || !strings.Contains(string(raw), `"complete": false`) {
+			t.Errorf("%s does not say complete: false (err %v)", f, err)
+		}
+		if strings.Contains(string(raw), "NaN") || strings.Contains(string(raw), "Inf") {
+			t.Errorf("%s holds NaN or Inf:\n%s", f, raw)
+		}
+	}
+	for _, c := range []struct {
+		name string
+		args []string
+		want string
+	}{
+		{"fit over an unfinished run", []string{"fit", mp, "--out", out}, "--resume"},
+		{"resume with a model file", []string{"fit", mp, "--resume", out}, "no model file"},
+		{"resume with a setting", []string{"fit", "--resume", out, "--chains", "3"}, "--chains cannot be used with --resume"},
+		{"resume a missing folder", []string{"fit", "--resume", filepath.Join(dir, "nothere")}, "not a run folder"},
+		{"no model and no resume", []string{"fit"}, "needs a model file"},
+	} {
+		code, _, stderr := runCLI(c.args...)
+		if code != 2 || !strings.Contains(stderr, c.want) {
+			t.Errorf("%s: exit %d, stderr %q; want 2 and %q", c.name, code, stderr, c.want)
+		}
+	}
+	if code, _, stderr := runCLI("fit", "--resume", out, "--quiet"); code != 0 {
+		t.Fatalf("resume: exit %d: %s", code, stderr)
+	}
+	a, _ := os.ReadFile(filepath.Join(want, "draws.csv"))
+	b, _ := os.ReadFile(filepath.Join(out, "draws.csv"))
+	if len(a) == 0 || !bytes.Equal(a, b) {
+		t.Error("draws.csv after resume differs from the uninterrupted fit")
+	}
+	if code, _, stderr := runCLI("fit", "--resume", out); code != 2 || !strings.Contains(stderr, "already complete") {
+		t.Errorf("resuming a complete run: exit %d, %q", code, stderr)
+	}
+}
