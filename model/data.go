@@ -11,6 +11,7 @@ import (
 	"io"
 	"math"
 	"os"
+	"regexp"
 	"slices"
 	"sort"
 	"strconv"
@@ -81,9 +82,20 @@ type cellRow struct {
 	occ    int
 	vals   []string
 	line   int
+	cols   []string // wide layout: the column of each outcome's value ("" none)
 }
 
-// ParsePanel parses long-format CSV content raw (named file in messages).
+// at names the column of outcome k's value in wide data, for messages.
+func (r cellRow) at(k int) string {
+	if r.cols == nil || r.cols[k] == "" {
+		return ""
+	}
+	return fmt.Sprintf(" (column %q)", r.cols[k])
+}
+
+// ParsePanel parses CSV content raw (named file in messages): long layout
+// (one row per person and occasion) or, with data.layout: wide, one row
+// per person and one column per outcome and occasion.
 func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
 	sum := sha256.Sum256(raw)
 	orig := raw
@@ -100,81 +112,102 @@ func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
 	col := map[string]int{}
 	for i, h := range header {
 		h = strings.TrimSpace(h)
+		header[i] = h
 		if _, dup := col[h]; dup {
 			return nil, Inputf(file, 1, "column %q appears twice in the header", h)
 		}
 		col[h] = i
 	}
 	p := &problems{}
-	need := []string{sp.Data.Person, sp.Data.Occasion}
-	for _, o := range sp.Outcomes {
-		need = append(need, o.Name)
-	}
-	idx := make([]int, len(need))
-	for k, name := range need {
-		i, ok := col[name]
-		if !ok {
-			p.addf(file, 1, "missing column %q named in %s%s; the header has: %s", name, sp.Path, suggest(name, header), strings.Join(header, ", "))
-		}
-		idx[k] = i
-	}
-	if err := p.err(); err != nil {
-		return nil, err
-	}
 	missing := map[string]bool{}
 	for _, m := range sp.Data.Missing {
 		missing[m] = true
 	}
-	var rows []cellRow
-	for {
-		rec, err := r.Read()
-		if err == io.EOF {
-			break
+	// cell returns the text of a value cell, "\x00" when it is missing.
+	cell := func(text string) string {
+		v := strings.TrimSpace(text)
+		if missing[v] || missing[text] {
+			return "\x00"
 		}
-		if err != nil {
-			line := 0
-			var pe *csv.ParseError
-			if errors.As(err, &pe) {
-				line = pe.StartLine
-			}
-			p.addf(file, line, "%v", csvMsg(err))
-			if len(p.errs) >= maxReported {
-				break
-			}
-			continue
-		}
-		line, _ := r.FieldPos(0)
-		if len(rec) == 1 && strings.TrimSpace(rec[0]) == "" {
-			continue // blank line
-		}
-		if len(rec) != len(header) {
-			p.addf(file, line, "expected %d fields as in the header, got %d", len(header), len(rec))
-			continue
-		}
-		c := cellRow{line: line, person: strings.TrimSpace(rec[idx[0]])}
-		if c.person == "" || missing[c.person] {
+		return v
+	}
+	// person reads and checks the person cell of a row.
+	person := func(rec []string, i, line int) (string, bool) {
+		id := strings.TrimSpace(rec[i])
+		if id == "" || missing[id] {
 			p.addf(file, line, "column %q: person is missing", sp.Data.Person)
-			continue
+			return "", false
 		}
-		if strings.ContainsAny(c.person, "\r\n") {
-			p.addf(file, line, "column %q: person %q contains a line break; use an id on one line", sp.Data.Person, c.person)
-			continue
+		if strings.ContainsAny(id, "\r\n") {
+			p.addf(file, line, "column %q: person %q contains a line break; use an id on one line", sp.Data.Person, id)
+			return "", false
 		}
-		occText := strings.TrimSpace(rec[idx[1]])
-		occ, ok := parseOccasion(occText)
-		if !ok {
-			p.addf(file, line, "column %q: occasion %q is not a whole number (occasions must be integers that order the waves or days)", sp.Data.Occasion, occText)
-			continue
+		return id, true
+	}
+	var rows []cellRow
+	firstLine := map[string]int{} // wide layout: the row of each person
+	if sp.Data.Wide {
+		wc, err := wideColumns(sp, file, header, col)
+		if err != nil {
+			return nil, err
 		}
-		c.occ = occ
-		for k := range sp.Outcomes {
-			v := strings.TrimSpace(rec[idx[2+k]])
-			if missing[v] || missing[rec[idx[2+k]]] {
-				v = "\x00"
+		pi := col[sp.Data.Person]
+		readRecords(r, file, len(header), p, func(rec []string, line int) {
+			id, ok := person(rec, pi, line)
+			if !ok {
+				return
 			}
-			c.vals = append(c.vals, v)
+			if prev, dup := firstLine[id]; dup {
+				p.addf(file, line, "person %q is also on line %d; wide data has one row per person", id, prev)
+				return
+			}
+			firstLine[id] = line
+			for _, w := range wc {
+				c := cellRow{line: line, person: id, occ: w.occ, cols: w.names}
+				for _, i := range w.idx {
+					if i < 0 {
+						c.vals = append(c.vals, "\x00")
+					} else {
+						c.vals = append(c.vals, cell(rec[i]))
+					}
+				}
+				rows = append(rows, c)
+			}
+		})
+	} else {
+		need := []string{sp.Data.Person, sp.Data.Occasion}
+		for _, o := range sp.Outcomes {
+			need = append(need, o.Name)
 		}
-		rows = append(rows, c)
+		idx := make([]int, len(need))
+		for k, name := range need {
+			i, ok := col[name]
+			if !ok {
+				p.addf(file, 1, "missing column %q named in %s%s; the header has: %s", name, sp.Path, suggest(name, header), strings.Join(header, ", "))
+			}
+			idx[k] = i
+		}
+		if err := p.err(); err != nil {
+			return nil, err
+		}
+		readRecords(r, file, len(header), p, func(rec []string, line int) {
+			id, ok := person(rec, idx[0], line)
+			if !ok {
+				return
+			}
+			c := cellRow{line: line, person: id}
+			occText := strings.TrimSpace(rec[idx[1]])
+			occ, ok := parseOccasion(occText)
+			if !ok {
+				p.addf(file, line, "column %q: occasion %q is not a whole number (occasions must be integers that order the waves or days)", sp.Data.Occasion, occText)
+				return
+			}
+			c.occ = occ
+			for k := range sp.Outcomes {
+				c.vals = append(c.vals, cell(rec[idx[2+k]]))
+			}
+			rows = append(rows, c)
+		})
 	}
 	if err := p.err(); err != nil {
 		return nil, err
@@ -183,6 +216,9 @@ func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
 		return nil, Inputf(file, 0, "data file has a header but no data rows")
 	}
 	pan := &Panel{File: file, Raw: orig, SHA256: hex.EncodeToString(sum[:]), Rows: len(rows)}
+	if sp.Data.Wide {
+		pan.Rows = len(firstLine)
+	}
 	pan.Outcomes = make([]Outcome, len(sp.Outcomes))
 	for k, o := range sp.Outcomes {
 		out, err := resolveOutcome(sp, file, o, rows, k)
@@ -199,6 +235,136 @@ func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
 		return nil, err
 	}
 	return pan, nil
+}
+
+// readRecords reads the data rows after the header, skipping blank lines
+// and recording malformed rows in p, and hands each good row to fn with
+// its line number.
+func readRecords(r *csv.Reader, file string, fields int, p *problems, fn func(rec []string, line int)) {
+	for {
+		rec, err := r.Read()
+		if err == io.EOF {
+			return
+		}
+		if err != nil {
+			line := 0
+			var pe *csv.ParseError
+			if errors.As(err, &pe) {
+				line = pe.StartLine
+			}
+			p.addf(file, line, "%v", csvMsg(err))
+			if len(p.errs) >= maxReported {
+				return
+			}
+			continue
+		}
+		line, _ := r.FieldPos(0)
+		if len(rec) == 1 && strings.TrimSpace(rec[0]) == "" {
+			continue // blank line
+		}
+		if len(rec) != fields {
+			p.addf(file, line, "expected %d fields as in the header, got %d", fields, len(rec))
+			continue
+		}
+		fn(rec, line)
+	}
+}
+
+// wideOccasion is one occasion of wide data: the column index of each
+// outcome's value there (-1: no column) and the column names.
+type wideOccasion struct {
+	occ   int
+	idx   []int
+	names []string
+}
+
+// wideColumns maps the header of wide data to occasions: each outcome's
+// columns are the ones its columns: map names or, else, the header names
+// that fit data.wide_columns with the outcome's name and a whole number.
+func wideColumns(sp *Spec, file string, header []string, col map[string]int) ([]wideOccasion, error) {
+	p := &problems{}
+	if _, ok := col[sp.Data.Person]; !ok {
+		p.addf(file, 1, "missing column %q named in %s%s; the header has: %s", sp.Data.Person, sp.Path, suggest(sp.Data.Person, header), strings.Join(header, ", "))
+	}
+	J := len(sp.Outcomes)
+	at := map[int][]int{} // occasion -> column per outcome
+	claimed := map[int]string{}
+	set := func(j, occ, i int) {
+		if at[occ] == nil {
+			at[occ] = slices.Repeat([]int{-1}, J)
+		}
+		at[occ][j] = i
+	}
+	for j, o := range sp.Outcomes {
+		if o.Columns != nil {
+			for occ, name := range o.Columns {
+				i, ok := col[name]
+				if !ok {
+					p.addf(file, 1, "missing column %q (outcome %q, occasion %d in %s)%s", name, o.Name, occ, sp.Path, suggest(name, header))
+					continue
+				}
+				if prev, dup := claimed[i]; dup {
+					p.addf(file, 1, "column %q is given to both %s and outcome %q", name, prev, o.Name)
+				}
+				claimed[i] = fmt.Sprintf("outcome %q", o.Name)
+				set(j, occ, i)
+			}
+			continue
+		}
+		pre, post, _ := strings.Cut(sp.Data.WideColumns, "{occasion}")
+		re, err := regexp.Compile("^" + regexp.QuoteMeta(strings.Replace(pre, "{outcome}", "\x00", 1)) + "(-?[0-9]+)" + regexp.QuoteMeta(strings.Replace(post, "{outcome}", "\x00", 1)) + "$")
+		if err != nil {
+			return nil, Inputf(sp.Path, 0, "data.wide_columns: %v", err)
+		}
+		// The outcome's name goes where {outcome} was, quoted.
+		re = regexp.MustCompile(strings.Replace(re.String(), "\x00", regexp.QuoteMeta(o.Name), 1))
+		found := 0
+		for i, h := range header {
+			m := re.FindStringSubmatch(h)
+			if m == nil {
+				continue
+			}
+			occ, err := strconv.Atoi(m[1])
+			if err != nil || occ < -1_000_000_000 || occ > 1_000_000_000 {
+				continue
+			}
+			if prev, dup := claimed[i]; dup {
+				p.addf(file, 1, "column %q fits the pattern %q for both %s and outcome %q; name the columns with the outcomes' columns key", h, sp.Data.WideColumns, prev, o.Name)
+				continue
+			}
+			if at[occ] != nil && at[occ][j] >= 0 {
+				p.addf(file, 1, "columns %q and %q are both outcome %q at occasion %d", header[at[occ][j]], h, o.Name, occ)
+				continue
+			}
+			claimed[i] = fmt.Sprintf("outcome %q", o.Name)
+			set(j, occ, i)
+			found++
+		}
+		if found == 0 {
+			example := strings.NewReplacer("{outcome}", o.Name, "{occasion}", "1").Replace(sp.Data.WideColumns)
+			p.addf(file, 1, "no column for outcome %q: expected names like %q (data.wide_columns: %q in %s); the header has: %s", o.Name, example, sp.Data.WideColumns, sp.Path, strings.Join(header, ", "))
+		}
+	}
+	if i, ok := col[sp.Data.Person]; ok {
+		if what, dup := claimed[i]; dup {
+			p.addf(file, 1, "column %q is the person column and also a column of %s", sp.Data.Person, what)
+		}
+	}
+	if err := p.err(); err != nil {
+		return nil, err
+	}
+	out := make([]wideOccasion, 0, len(at))
+	for occ, idx := range at {
+		w := wideOccasion{occ: occ, idx: idx, names: make([]string, J)}
+		for j, i := range idx {
+			if i >= 0 {
+				w.names[j] = header[i]
+			}
+		}
+		out = append(out, w)
+	}
+	slices.SortFunc(out, func(a, b wideOccasion) int { return cmp.Compare(a.occ, b.occ) })
+	return out, nil
 }
 
 func csvMsg(err error) string {
@@ -233,7 +399,7 @@ func resolveOutcome(sp *Spec, file string, o OutcomeSpec, rows []cellRow, k int)
 			}
 			f, err := strconv.ParseFloat(v, 64)
 			if err != nil || math.IsNaN(f) || math.IsInf(f, 0) {
-				p.addf(file, r.line, "outcome %q: %q is not a finite number (continuous outcome; missing cells may be %s)", o.Name, v, quoteList(sp.Data.Missing))
+				p.addf(file, r.line, "outcome %q%s: %q is not a finite number (continuous outcome; missing cells may be %s)", o.Name, r.at(k), v, quoteList(sp.Data.Missing))
 			}
 		}
 		return out, p.err()
@@ -241,7 +407,7 @@ func resolveOutcome(sp *Spec, file string, o OutcomeSpec, rows []cellRow, k int)
 		out.K, out.Codes = len(o.Labels), o.Labels
 		for _, r := range rows {
 			if v := r.vals[k]; v != "\x00" && !slices.Contains(o.Labels, v) {
-				p.addf(file, r.line, "outcome %q: %q is not one of the declared labels %s", o.Name, v, quoteList(o.Labels))
+				p.addf(file, r.line, "outcome %q%s: %q is not one of the declared labels %s", o.Name, r.at(k), v, quoteList(o.Labels))
 			}
 		}
 		return out, p.err()
@@ -261,7 +427,7 @@ func resolveOutcome(sp *Spec, file string, o OutcomeSpec, rows []cellRow, k int)
 			if o.Type == Binary {
 				hint = fmt.Sprintf("; for text answers declare labels, e.g. labels: [no, yes] (lower category first)")
 			}
-			p.addf(file, r.line, "outcome %q: %q is not a whole-number category code%s", o.Name, v, hint)
+			p.addf(file, r.line, "outcome %q%s: %q is not a whole-number category code%s", o.Name, r.at(k), v, hint)
 			continue
 		}
 		lo, hi = min(lo, c), max(hi, c)
@@ -311,7 +477,7 @@ func resolveOutcome(sp *Spec, file string, o OutcomeSpec, rows []cellRow, k int)
 		}
 		c, _ := parseOccasion(v)
 		if c < lowest || c >= lowest+K {
-			p.addf(file, r.line, "outcome %q: category %d outside %d..%d (declared categories: %d%s)", o.Name, c, lowest, lowest+K-1, K, lowestNote(o))
+			p.addf(file, r.line, "outcome %q%s: category %d outside %d..%d (declared categories: %d%s)", o.Name, r.at(k), c, lowest, lowest+K-1, K, lowestNote(o))
 		}
 	}
 	return out, p.err()
@@ -409,28 +575,87 @@ func (pan *Panel) arrange(sp *Spec, file string, rows []cellRow) error {
 	if len(dropped) > 0 {
 		pan.Notes = append(pan.Notes, fmt.Sprintf("%d person(s) with no observed value were left out: %s", len(dropped), clip(dropped, 5)))
 	}
-	for j, o := range pan.Outcomes {
-		if o.K == 0 {
-			continue
+	for j := range pan.Outcomes {
+		if err := pan.checkVaries(sp, file, j); err != nil {
+			p.add(err)
 		}
-		count := make([]int, o.K)
+	}
+	return p.err()
+}
+
+// checkVaries refuses an outcome that takes a single value, and an ordinal
+// or binary outcome with a category nobody used (its threshold would rest
+// on nothing but the prior) unless the outcome says empty_categories:
+// merge, in which case the empty categories are dropped and the rest
+// renumbered.
+func (pan *Panel) checkVaries(sp *Spec, file string, j int) error {
+	o := &pan.Outcomes[j]
+	J := pan.J()
+	cells := func(fn func(c int, v float64)) {
 		for i := range pan.Persons {
 			for t := 0; t < pan.Len[i]; t++ {
-				if v := pan.Y[pan.Offset[i]+t*J+j]; !math.IsNaN(v) {
-					count[int(v)]++
+				c := pan.Offset[i] + t*J + j
+				if v := pan.Y[c]; !math.IsNaN(v) {
+					fn(c, v)
 				}
 			}
 		}
-		var empty []string
-		for c, n := range count {
+	}
+	if o.K == 0 {
+		first, n, varies := math.NaN(), 0, false
+		cells(func(_ int, v float64) {
 			if n == 0 {
-				empty = append(empty, o.Codes[c])
+				first = v
+			} else if v != first {
+				varies = true
 			}
+			n++
+		})
+		if n > 0 && !varies && !sp.AllowDegenerate {
+			return Inputf(file, 0, "outcome %q takes the single value %g in all %d observed cells: an outcome that never varies cannot be modelled; leave it out of outcomes", o.Name, first, n)
 		}
+		return nil
+	}
+	count := make([]int, o.K)
+	cells(func(_ int, v float64) { count[int(v)]++ })
+	var empty []string
+	used := 0
+	for c, n := range count {
+		if n == 0 {
+			empty = append(empty, o.Codes[c])
+		} else {
+			used++
+		}
+	}
+	switch {
+	case sp.AllowDegenerate:
 		if len(empty) > 0 {
 			pan.Notes = append(pan.Notes, fmt.Sprintf("outcome %q: category %s never observed; its thresholds rest on the prior", o.Name, strings.Join(empty, ", ")))
 		}
+		return nil
+	case used == 1:
+		only := o.Codes[slices.IndexFunc(count, func(n int) bool { return n > 0 })]
+		return Inputf(file, 0, "outcome %q takes the single value %q in all %d observed cells: an outcome that never varies cannot be modelled; leave it out of outcomes", o.Name, only, count[slices.Index(o.Codes, only)])
+	case len(empty) == 0:
+		return nil
+	case !sp.Outcomes[j].MergeEmpty:
+		return Inputf(file, 0, "outcome %q: category %s never observed (categories %s); a threshold next to an empty category cannot be estimated from the data. Declare the categories that occur, or set empty_categories: merge on the outcome in %s to drop empty categories",
+			o.Name, strings.Join(empty, ", "), strings.Join(o.Codes, ", "), sp.Path)
+	case o.Type == Ordinal && used < 3:
+		return Inputf(file, 0, "outcome %q: only %d categories are observed (%s never); an ordinal outcome needs 3: use type: binary", o.Name, used, strings.Join(empty, ", "))
 	}
+	newIdx := make([]int, o.K)
+	var codes []string
+	for c, n := range count {
+		newIdx[c] = len(codes)
+		if n > 0 {
+			codes = append(codes, o.Codes[c])
+		}
+	}
+	cells(func(c int, v float64) { pan.Y[c] = float64(newIdx[int(v)]) })
+	pan.Notes = append(pan.Notes, fmt.Sprintf("outcome %q: category %s never observed and dropped (empty_categories: merge); %d categories remain: %s",
+		o.Name, strings.Join(empty, ", "), len(codes), strings.Join(codes, ", ")))
+	o.K, o.Codes = len(codes), codes
 	return nil
 }
 

@@ -1,7 +1,9 @@
 package model
 
 import (
+	"fmt"
 	"math"
+	"slices"
 	"strings"
 	"testing"
 )
@@ -63,7 +65,7 @@ func TestPanelGridGapsOrder(t *testing.T) {
 
 func TestPersonsSortedNumerically(t *testing.T) {
 	sp := mustSpec(t, strings.Replace(spec2, `labels: ["no", "yes"]`, "categories: 2", 1))
-	csv := "who,wave,mood,sick\n10,1,1,0\n9,1,2,1\n100,1,3,0\n"
+	csv := "who,wave,mood,sick\n10,1,1,0\n9,1,2,1\n100,1,3,0\n9,2,4,0\n"
 	pan, err := ParsePanel(sp, "d.csv", []byte(csv))
 	if err != nil {
 		t.Fatal(err)
@@ -73,20 +75,58 @@ func TestPersonsSortedNumerically(t *testing.T) {
 	}
 }
 
-func TestLowestInferredAndNotes(t *testing.T) {
-	sp := mustSpec(t, `data: {file: d.csv, person: p, occasion: t}
-outcomes: [{name: y, type: ordinal, categories: 5}]
+// TestEmptyCategories: an ordinal category nobody used is refused with a
+// message naming the outcome, the categories and the way out; with
+// empty_categories: merge it is dropped, the rest renumbered, and noted.
+func TestEmptyCategories(t *testing.T) {
+	const m = `data: {file: d.csv, person: p, occasion: t}
+outcomes: [{name: y, type: ordinal, categories: 5%s}]
 within: {lags: none}
-`)
-	pan, err := ParsePanel(sp, "d.csv", []byte("p,t,y\n1,1,1\n1,2,2\n2,1,4\n2,2,2\n"))
+`
+	data := []byte("p,t,y\n1,1,1\n1,2,2\n2,1,4\n2,2,2\n3,1,1\n")
+	_, err := ParsePanel(mustSpec(t, fmt.Sprintf(m, "")), "d.csv", data)
+	if err == nil || !IsInputError(err) {
+		t.Fatalf("got %v, want an input error", err)
+	}
+	for _, w := range []string{"d.csv", `outcome "y"`, "category 3, 5 never observed", "categories 1, 2, 3, 4, 5", "empty_categories: merge"} {
+		if !strings.Contains(err.Error(), w) {
+			t.Errorf("message lacks %q: %v", w, err)
+		}
+	}
+	pan, err := ParsePanel(mustSpec(t, fmt.Sprintf(m, ", empty_categories: merge")), "d.csv", data)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if got := strings.Join(pan.Outcomes[0].Codes, ","); got != "1,2,3,4,5" {
-		t.Errorf("codes = %s, want 1..5", got)
+	if got := strings.Join(pan.Outcomes[0].Codes, ","); got != "1,2,4" || pan.Outcomes[0].K != 3 {
+		t.Errorf("codes after merging = %s (K %d), want 1,2,4", got, pan.Outcomes[0].K)
 	}
-	if !strings.Contains(strings.Join(pan.Notes, " "), "category 3, 5 never observed") {
-		t.Errorf("notes = %q, want a never-observed note", pan.Notes)
+	// Person 2 answered 4 then 2: now categories 2 and 1 (0-based).
+	if got := pan.Y[pan.Offset[1] : pan.Offset[1]+2]; got[0] != 2 || got[1] != 1 {
+		t.Errorf("person 2 = %v, want [2 1]", got)
+	}
+	if !strings.Contains(strings.Join(pan.Notes, " "), "category 3, 5 never observed and dropped") {
+		t.Errorf("notes = %q, want a note on the dropped categories", pan.Notes)
+	}
+	// Merging down to two categories of an ordinal outcome is refused.
+	_, err = ParsePanel(mustSpec(t, fmt.Sprintf(m, ", empty_categories: merge")), "d.csv", []byte("p,t,y\n1,1,1\n1,2,2\n"))
+	if err == nil || !strings.Contains(err.Error(), "use type: binary") {
+		t.Errorf("two categories left: got %v", err)
+	}
+}
+
+// TestSingleValuedOutcome: an outcome that never varies is refused, for
+// every type.
+func TestSingleValuedOutcome(t *testing.T) {
+	for _, c := range []struct{ typ, data string }{
+		{"binary", "p,t,y\n1,1,1\n1,2,1\n2,1,1\n"},
+		{"ordinal, categories: 3", "p,t,y\n1,1,2\n1,2,2\n2,1,NA\n"},
+		{"continuous", "p,t,y\n1,1,3.5\n1,2,3.5\n2,1,3.5\n"},
+	} {
+		sp := mustSpec(t, "data: {file: d.csv, person: p, occasion: t}\noutcomes: [{name: y, type: "+c.typ+"}]\nwithin: {lags: none}\n")
+		_, err := ParsePanel(sp, "d.csv", []byte(c.data))
+		if err == nil || !IsInputError(err) || !strings.Contains(err.Error(), "never varies") || !strings.Contains(err.Error(), `outcome "y"`) {
+			t.Errorf("%s: got %v, want a never-varies input error", c.typ, err)
+		}
 	}
 }
 
@@ -151,6 +191,130 @@ func TestIdentifyRules(t *testing.T) {
 			t.Errorf("%s: unexpected refusal: %v", c.within, err)
 		case c.want != "" && (err == nil || !strings.Contains(err.Error(), c.want)):
 			t.Errorf("%s: error = %v, want %q", c.within, err, c.want)
+		}
+	}
+}
+
+const wideSpec = `data:
+  file: w.csv
+  person: who
+  layout: wide
+outcomes:
+  - {name: mood, type: ordinal, categories: 3, lowest: 1}
+  - {name: sick, type: binary, labels: ["no", "yes"]}
+within: {lags: cross}
+`
+
+// TestWideEqualsLong: wide data (one row per person; columns found by
+// the default pattern {outcome}_{occasion}, an outcome missing at one
+// occasion, cells missing, a person with nothing observed) gives the same
+// panel as the same values in long layout.
+func TestWideEqualsLong(t *testing.T) {
+	wide := "who,mood_1,mood_2,mood_4,sick_1,sick_4,age\n" +
+		"bo,2,,3,yes,no,41\n" +
+		"al,1,3,NA,no,,35\n" +
+		"cy,,,,,,50\n" +
+		"di,3,2,1,yes,yes,29\n"
+	long := "who,wave,mood,sick\n" +
+		"bo,1,2,yes\nbo,2,,\nbo,4,3,no\n" +
+		"al,1,1,no\nal,2,3,\nal,4,NA,\n" +
+		"di,1,3,yes\ndi,2,2,\ndi,4,1,yes\n"
+	pw, err := ParsePanel(mustSpec(t, wideSpec), "w.csv", []byte(wide))
+	if err != nil {
+		t.Fatal(err)
+	}
+	pl, err := ParsePanel(mustSpec(t, spec2Long3), "l.csv", []byte(long))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !slices.Equal(pw.Persons, pl.Persons) || !slices.Equal(pw.Occasions, pl.Occasions) || !slices.Equal(pw.Len, pl.Len) {
+		t.Fatalf("wide: persons %v occasions %v len %v; long: %v %v %v", pw.Persons, pw.Occasions, pw.Len, pl.Persons, pl.Occasions, pl.Len)
+	}
+	for c := range pl.Y {
+		if a, b := pw.Y[c], pl.Y[c]; !(a == b || math.IsNaN(a) && math.IsNaN(b)) {
+			t.Errorf("cell %d: wide %v, long %v", c, a, b)
+		}
+	}
+	if pw.Rows != 4 {
+		t.Errorf("rows = %d, want 4 (one per person)", pw.Rows)
+	}
+	if !strings.Contains(strings.Join(pw.Notes, " "), "cy") {
+		t.Errorf("notes %q should mention the dropped person cy", pw.Notes)
+	}
+}
+
+const spec2Long3 = `data: {file: l.csv, person: who, occasion: wave}
+outcomes:
+  - {name: mood, type: ordinal, categories: 3, lowest: 1}
+  - {name: sick, type: binary, labels: ["no", "yes"]}
+within: {lags: cross}
+`
+
+// TestWideColumnsMapped: an outcome's columns can be listed per occasion,
+// and the pattern can be any text around {outcome} and {occasion}.
+func TestWideColumnsMapped(t *testing.T) {
+	sp := mustSpec(t, `data: {file: w.csv, person: id, layout: wide, wide_columns: "wave{occasion}.{outcome}"}
+outcomes:
+  - {name: mood, type: ordinal, categories: 3, lowest: 1}
+  - {name: sick, type: binary, columns: {1: ill_may, 3: ill_july}}
+`)
+	pan, err := ParsePanel(sp, "w.csv", []byte("id,wave1.mood,wave3.mood,ill_may,ill_july\n7,1,3,0,1\n8,2,2,1,0\n9,3,1,0,0\n"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !slices.Equal(pan.Occasions, []int{1, 3}) || pan.Y[pan.Offset[0]+2+1] != 1 || pan.Y[pan.Offset[1]+0] != 1 {
+		t.Errorf("occasions %v, cells %v", pan.Occasions, pan.Y)
+	}
+}
+
+// TestWideBadInput: wide data gets the same kind of messages as long data
+// (file, line, column, what was expected), and wide-only keys are checked.
+func TestWideBadInput(t *testing.T) {
+	for _, c := range []struct {
+		name, spec, data string
+		want             []string
+	}{
+		{"category out of range names the column", wideSpec, "who,mood_1,mood_2,sick_1\nbo,2,7,no\nal,1,2,yes\n",
+			[]string{"w.csv:2:", `outcome "mood" (column "mood_2")`, "category 7 outside 1..3"}},
+		{"label not declared", wideSpec, "who,mood_1,sick_1\nbo,2,no\nal,1,maybe\nx,3,yes\n",
+			[]string{"w.csv:3:", `outcome "sick" (column "sick_1")`, `"maybe" is not one of the declared labels`}},
+		{"person twice", wideSpec, "who,mood_1,sick_1\nbo,2,no\nbo,1,yes\n",
+			[]string{"w.csv:3:", `person "bo" is also on line 2`, "one row per person"}},
+		{"no column for an outcome", wideSpec, "who,mood_1,mood_2,ill_1\nbo,2,1,no\n",
+			[]string{"w.csv:1:", `no column for outcome "sick"`, `"sick_1"`}},
+		{"person column missing", wideSpec, "id,mood_1,sick_1\nbo,2,no\n",
+			[]string{"w.csv:1:", `missing column "who"`}},
+		{"mapped column missing", strings.Replace(wideSpec, `labels: ["no", "yes"]}`, `labels: ["no", "yes"], columns: {1: ill_a}}`, 1), "who,mood_1,ill_b\nbo,2,no\n",
+			[]string{`missing column "ill_a"`, `outcome "sick", occasion 1`}},
+		{"column fits two outcomes", `data: {file: w.csv, person: who, layout: wide, wide_columns: "{outcome}{occasion}"}
+outcomes: [{name: a, type: binary}, {name: a1, type: binary}]
+`, "who,a1,a11,a12\nx,0,1,0\n", []string{`column "a11" fits the pattern`, `outcome "a"`, `outcome "a1"`}},
+		{"row too short", wideSpec, "who,mood_1,sick_1\nbo,2\n", []string{"w.csv:2:", "expected 3 fields"}},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			_, err := ParsePanel(mustSpec(t, c.spec), "w.csv", []byte(c.data))
+			if err == nil || !IsInputError(err) {
+				t.Fatalf("got %v, want an input error", err)
+			}
+			for _, w := range c.want {
+				if !strings.Contains(err.Error(), w) {
+					t.Errorf("message lacks %q:\n%v", w, err)
+				}
+			}
+		})
+	}
+	for _, c := range []struct{ name, spec, want string }{
+		{"occasion with wide", strings.Replace(wideSpec, "layout: wide", "layout: wide\n  occasion: wave", 1), "data.occasion: not used with layout: wide"},
+		{"pattern without occasion", strings.Replace(wideSpec, "layout: wide", "layout: wide\n  wide_columns: \"{outcome}_t\"", 1), "data.wide_columns: expected a column-name pattern"},
+		{"pattern in long data", strings.Replace(spec2, "occasion: wave}", "occasion: wave, wide_columns: \"{outcome}{occasion}\"}", 1), "only used with layout: wide"},
+		{"columns in long data", strings.Replace(spec2, `labels: ["no", "yes"]}`, `labels: ["no", "yes"], columns: {1: x}}`, 1), "columns is only used with data.layout: wide"},
+		{"columns not a map", strings.Replace(wideSpec, `labels: ["no", "yes"]}`, `labels: ["no", "yes"], columns: [a, b]}`, 1), "expected occasion: column pairs"},
+		{"occasion not a number", strings.Replace(wideSpec, `labels: ["no", "yes"]}`, `labels: ["no", "yes"], columns: {one: a}}`, 1), `occasion "one" is not a whole number`},
+		{"bad layout", strings.Replace(wideSpec, "layout: wide", "layout: broad", 1), `data.layout: expected one of long, wide`},
+	} {
+		_, err := ParseSpec("m.yaml", []byte(c.spec))
+		if err == nil || !strings.Contains(err.Error(), c.want) {
+			t.Errorf("%s: got %v, want %q", c.name, err, c.want)
 		}
 	}
 }

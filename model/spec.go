@@ -58,14 +58,24 @@ type Spec struct {
 	Within   WithinSpec
 	Means    MeansSpec
 	Sampler  SamplerSpec
+	// AllowDegenerate keeps outcomes with an empty category or a single
+	// value (noted, not refused). Only simulation-based calibration sets
+	// it: its prior draws may leave a category empty, and the posterior
+	// under the threshold prior is still proper. No model-file key sets it.
+	AllowDegenerate bool
 }
 
 // DataSpec says where the panel is and which columns index it.
 type DataSpec struct {
 	File     string   // resolved path of the CSV
 	Person   string   // person column
-	Occasion string   // occasion column (integers)
+	Occasion string   // occasion column (integers; long layout)
 	Missing  []string // cell texts that mean missing
+	// Wide is true for one row per person with one column per outcome and
+	// occasion (layout: wide). WideColumns is the pattern of those
+	// columns' names, with {outcome} and {occasion} in it.
+	Wide        bool
+	WideColumns string
 }
 
 // OutcomeSpec is one outcome as the model file declares it.
@@ -75,7 +85,13 @@ type OutcomeSpec struct {
 	Categories int      // 0: infer from the data
 	Lowest     *int     // code of the lowest category; nil: infer
 	Labels     []string // category labels, lowest first; nil: integer codes
-	Line       int      // line of the entry in the model file
+	// MergeEmpty (empty_categories: merge) drops categories nobody used
+	// instead of refusing the data.
+	MergeEmpty bool
+	// Columns maps occasions to this outcome's columns in wide data (nil:
+	// found by data.wide_columns).
+	Columns map[int]string
+	Line    int // line of the entry in the model file
 }
 
 // BetweenSpec is the between-person part.
@@ -118,8 +134,8 @@ type SamplerSpec struct {
 // schema lists the keys allowed at each level of the model file.
 var schema = map[string][]string{
 	"":         {"data", "outcomes", "between", "within", "means", "sampler"},
-	"data":     {"file", "person", "occasion", "missing"},
-	"outcomes": {"name", "type", "categories", "lowest", "labels"},
+	"data":     {"file", "person", "occasion", "missing", "layout", "wide_columns"},
+	"outcomes": {"name", "type", "categories", "lowest", "labels", "empty_categories", "columns"},
 	"between":  {"random_intercepts"},
 	"within":   {"lags", "residual_correlation", "over_time", "first_occasion"},
 	"means":    {"over_time"},
@@ -175,7 +191,26 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 		if v, ok := m["missing"]; ok {
 			sp.Data.Missing = r.strList(v, "data.missing")
 		}
-		for _, k := range []string{"file", "person", "occasion"} {
+		if v, ok := m["layout"]; ok {
+			sp.Data.Wide = r.choice(v, "data.layout", "long", "wide") == "wide"
+		}
+		need := []string{"file", "person", "occasion"}
+		if sp.Data.Wide {
+			need = need[:2]
+			if v, ok := m["occasion"]; ok {
+				p.addf(path, v.Line, "data.occasion: not used with layout: wide, where occasions come from the column names (data.wide_columns or the outcomes' columns)")
+			}
+			sp.Data.WideColumns = "{outcome}_{occasion}"
+			if v, ok := m["wide_columns"]; ok {
+				sp.Data.WideColumns = r.str(v, "data.wide_columns")
+				if strings.Count(sp.Data.WideColumns, "{outcome}") != 1 || strings.Count(sp.Data.WideColumns, "{occasion}") != 1 {
+					p.addf(path, v.Line, "data.wide_columns: expected a column-name pattern with {outcome} and {occasion} once each, e.g. \"{outcome}_{occasion}\", got %q", sp.Data.WideColumns)
+				}
+			}
+		} else if v, ok := m["wide_columns"]; ok {
+			p.addf(path, v.Line, "data.wide_columns: only used with layout: wide")
+		}
+		for _, k := range need {
 			if _, ok := m[k]; !ok && m != nil {
 				p.addf(path, n.Line, "data: missing key %q", k)
 			}
@@ -261,6 +296,11 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 	}
 	if !sp.Within.residualSet {
 		sp.Within.ResidualCorrelation = len(sp.Outcomes) > 1
+	}
+	for _, o := range sp.Outcomes {
+		if o.Columns != nil && !sp.Data.Wide {
+			p.addf(path, o.Line, "outcome %q: columns is only used with data.layout: wide", o.Name)
+		}
 	}
 	if sp.Data.File != "" && !filepath.IsAbs(sp.Data.File) {
 		sp.Data.File = filepath.Join(filepath.Dir(path), sp.Data.File)
@@ -451,5 +491,43 @@ func (r *reader) outcome(n *yaml.Node, i int) OutcomeSpec {
 		}
 		o.Categories = len(o.Labels)
 	}
+	if v, ok := m["empty_categories"]; ok {
+		o.MergeEmpty = r.choice(v, key+": empty_categories", "refuse", "merge") == "merge"
+		if o.Type == Continuous {
+			r.p.addf(r.file, v.Line, "%s: empty_categories given for a continuous outcome", key)
+		}
+	}
+	if v, ok := m["columns"]; ok {
+		o.Columns = r.occasionColumns(v, key+": columns")
+	}
 	return o
+}
+
+// occasionColumns reads a map from occasions (whole numbers) to column
+// names.
+func (r *reader) occasionColumns(n *yaml.Node, key string) map[int]string {
+	if n.Kind != yaml.MappingNode || len(n.Content) == 0 {
+		r.p.addf(r.file, n.Line, "%s: expected occasion: column pairs, e.g. {1: mood_may, 2: mood_june}", key)
+		return map[int]string{}
+	}
+	out := map[int]string{}
+	used := map[string]int{}
+	for i := 0; i+1 < len(n.Content); i += 2 {
+		k, v := n.Content[i], n.Content[i+1]
+		occ, err := strconv.Atoi(k.Value)
+		if err != nil || k.Kind != yaml.ScalarNode || occ < -1_000_000_000 || occ > 1_000_000_000 {
+			r.p.addf(r.file, k.Line, "%s: occasion %q is not a whole number", key, k.Value)
+			continue
+		}
+		if _, dup := out[occ]; dup {
+			r.p.addf(r.file, k.Line, "%s: occasion %d given twice", key, occ)
+		}
+		col := r.str(v, fmt.Sprintf("%s: occasion %d", key, occ))
+		if prev, dup := used[col]; dup && col != "" {
+			r.p.addf(r.file, v.Line, "%s: column %q given for occasions %d and %d", key, col, prev, occ)
+		}
+		used[col] = occ
+		out[occ] = col
+	}
+	return out
 }

@@ -178,6 +178,7 @@ func oneReplication(sc Scenario, cfg Config, pr priors.Set, tmpl *sampler.Layout
 	if err != nil {
 		return nil, err
 	}
+	sp.AllowDegenerate = true // prior draws may leave a category empty
 	pan, err := model.ParsePanel(sp, "sim.csv", data)
 	if err != nil {
 		return nil, err
