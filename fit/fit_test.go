@@ -2,8 +2,8 @@ package fit
 
 import (
 	"bytes"
-	"encoding/csv"
 	"context"
+	"encoding/csv"
 	"os"
 	"path/filepath"
 	"runtime"

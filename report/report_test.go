@@ -162,3 +162,18 @@ func TestManuscriptTables(t *testing.T) {
 		t.Error("unknown format accepted")
 	}
 }
+
+// TestUndefinedDiagnosticsWarn: an R-hat or ESS that is undefined (NaN,
+// e.g. draws that never change) fails the convergence rule and is written
+// as "undefined", never as NaN.
+func TestUndefinedDiagnosticsWarn(t *testing.T) {
+	nan := Num(math.NaN())
+	w := convergenceWarnings([]Entry{{Name: "stuck", Rhat: nan, ESSBulk: nan, ESSTail: 500}, {Name: "steady", Rhat: 1.001, ESSBulk: 900, ESSTail: 800}})
+	all := strings.Join(w, " ")
+	if len(w) != 2 || !strings.Contains(all, "stuck (undefined)") || !strings.Contains(all, "stuck (bulk undefined, tail 500)") || strings.Contains(all, "steady") {
+		t.Errorf("warnings %q", w)
+	}
+	if strings.Contains(all, "NaN") {
+		t.Errorf("warnings hold NaN: %q", w)
+	}
+}

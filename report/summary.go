@@ -4,6 +4,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 	"sync"
@@ -109,11 +110,24 @@ func Converged(res *sampler.Result) (bool, string) {
 	es := entries(res.Params, res.Draws, res.Kept, 0.95)
 	for _, e := range es {
 		r, b, t := float64(e.Rhat), float64(e.ESSBulk), float64(e.ESSTail)
-		if r > RhatLimit || b < ESSLimit || t < ESSLimit {
-			return false, fmt.Sprintf("%s (R-hat %.3f, bulk-ESS %.0f, tail-ESS %.0f)", e.Name, r, b, t)
+		if rhatBad(r) || essBad(b) || essBad(t) {
+			return false, fmt.Sprintf("%s (R-hat %s, bulk-ESS %s, tail-ESS %s)", e.Name, diag(r, 3), diag(b, 0), diag(t, 0))
 		}
 	}
 	return true, ""
+}
+
+// rhatBad and essBad fail a diagnostic that is past its limit or
+// undefined (NaN: e.g. a parameter whose draws never change).
+func rhatBad(r float64) bool { return !(r <= RhatLimit) }
+func essBad(x float64) bool  { return !(x >= ESSLimit) }
+
+// diag formats a diagnostic with the given decimals, "undefined" for NaN.
+func diag(x float64, decimals int) string {
+	if math.IsNaN(x) || math.IsInf(x, 0) {
+		return "undefined"
+	}
+	return strconv.FormatFloat(x, 'f', decimals, 64)
 }
 
 // Thresholds of the convergence warnings (Vehtari et al. 2021, §4).
@@ -142,7 +156,11 @@ func Build(res *sampler.Result, level float64, version string) *Summary {
 	if res.Incomplete {
 		s.Warnings = append(s.Warnings, fmt.Sprintf("the run was interrupted: chains kept %v of %d draws; this summary is incomplete", res.Kept, res.Options.Draws))
 	}
-	s.Warnings = append(s.Warnings, convergenceWarnings(append(append([]Entry{}, s.Parameters...), tableOnly(s.Derived)...))...)
+	if kept := slices.Min(append([]int{math.MaxInt}, res.Kept...)); kept < 4 {
+		s.Warnings = append(s.Warnings, fmt.Sprintf("too few draws (%d in the shortest chain) to judge convergence; nothing here can be reported", kept))
+	} else {
+		s.Warnings = append(s.Warnings, convergenceWarnings(append(append([]Entry{}, s.Parameters...), tableOnly(s.Derived)...))...)
+	}
 	for _, n := range l.Panel.Notes {
 		s.Warnings = append(s.Warnings, "data: "+n)
 	}
@@ -215,12 +233,12 @@ func entries(ps []sampler.Param, draws [][]float64, kept []int, level float64) [
 func convergenceWarnings(es []Entry) []string {
 	var rh, ess []string
 	for _, e := range es {
-		if r := float64(e.Rhat); r > RhatLimit {
-			rh = append(rh, fmt.Sprintf("%s (%.3f)", e.Name, r))
+		if r := float64(e.Rhat); rhatBad(r) {
+			rh = append(rh, fmt.Sprintf("%s (%s)", e.Name, diag(r, 3)))
 		}
 		b, t := float64(e.ESSBulk), float64(e.ESSTail)
-		if b < ESSLimit || t < ESSLimit {
-			ess = append(ess, fmt.Sprintf("%s (bulk %.0f, tail %.0f)", e.Name, b, t))
+		if essBad(b) || essBad(t) {
+			ess = append(ess, fmt.Sprintf("%s (bulk %s, tail %s)", e.Name, diag(b, 0), diag(t, 0)))
 		}
 	}
 	var w []string

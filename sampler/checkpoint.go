@@ -52,9 +52,11 @@ type persistent interface {
 	persist() []any
 }
 
-func (cb *CovBlock) persist() []any        { return []any{&cb.logStep, &cb.tries} }
-func (tb *ThresholdBlock) persist() []any  { return []any{&tb.logStep, &tb.tries} }
-func (pb *PathBlock) persist() []any       { return []any{&pb.Accepted, &pb.Proposed} }
+func (cb *CovBlock) persist() []any       { return []any{&cb.logStep, &cb.tries} }
+func (tb *ThresholdBlock) persist() []any { return []any{&tb.logStep, &tb.tries} }
+func (pb *PathBlock) persist() []any {
+	return []any{&pb.Accepted, &pb.Proposed, &pb.logStep, &pb.Tries, &pb.Walked}
+}
 func (pb *LatentPathBlock) persist() []any { return []any{&pb.Bounces, &pb.Stuck} }
 
 // fingerprint identifies the layout (model, data, parameter list) and the

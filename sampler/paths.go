@@ -12,17 +12,30 @@ import (
 // with S11 = sum w_{t-1} w_{t-1}' and S01 = sum w_t w_{t-1}', vec(A) has
 // precision (S11 kron Sigma^{-1}) + I/sd^2 and linear term
 // vec(Sigma^{-1} S01), restricted to the free entries. Under a stationary
-// first occasion this draw is an independence proposal, accepted with the
-// ratio of first-occasion densities N(w_1; 0, V(A')) / N(w_1; 0, V(A)) and
-// rejected when A' is not stable. Reads Ystar, Nu, B, Sigma; writes A.
+// first occasion the full conditional also has the factor N(w_1; 0, V(A))
+// (V the stationary covariance), and two Metropolis-Hastings moves leave it
+// invariant in turn: an independence proposal from the normal part,
+// accepted with the ratio of first-occasion densities, which jumps far
+// when that factor is weak; and a random walk A' = A + c L^{-T} z scaled by
+// the normal part's covariance (L its Cholesky factor; c adapted during
+// warm-up towards acceptance 0.3, Roberts, Gelman & Gilks 1997), accepted
+// with the ratio of full conditionals. When the carry-over is near 1 the
+// first-occasion factor rejects every far jump, and the random walk lets A
+// and the latent paths move together. Proposals that are not stable are
+// rejected. Reads Ystar, Nu, B, Sigma; writes A.
 type PathBlock struct {
 	free          []int // free entries r*J+c
 	s11, s01, s00 []float64
 	prec, h, a    []float64
+	mean, d       []float64
 	cur, old      []float64
 	work          []float64
 	Accepted      int
 	Proposed      int
+	// Random-walk move under a stationary first occasion: log of c, tries
+	// and acceptances.
+	logStep       float64
+	Tries, Walked int
 }
 
 // NewPathBlock allocates the block's workspace.
@@ -38,6 +51,8 @@ func NewPathBlock(l *Layout) *PathBlock {
 	}
 	n := len(pb.free)
 	pb.prec, pb.h, pb.a = make([]float64, n*n), make([]float64, n), make([]float64, n)
+	pb.mean, pb.d = make([]float64, n), make([]float64, n)
+	pb.logStep = math.Log(2.38 / math.Sqrt(float64(max(n, 1))))
 	return pb
 }
 
@@ -99,6 +114,11 @@ func (pb *PathBlock) draw(st *State, rng *rand.Rand, t int) error {
 		return errBlock("carry-over paths", "conditional precision is not positive definite")
 	}
 	dense.SolveLower(pb.prec, n, pb.h)
+	stationary := l.GroupOf[0] == -1
+	if stationary {
+		copy(pb.mean, pb.h)
+		dense.SolveUpperT(pb.prec, n, pb.mean)
+	}
 	for k := range pb.h {
 		pb.h[k] += rng.NormFloat64()
 	}
@@ -107,7 +127,7 @@ func (pb *PathBlock) draw(st *State, rng *rand.Rand, t int) error {
 	for p, f := range pb.free {
 		pb.cur[f] = pb.h[p]
 	}
-	if l.GroupOf[0] != -1 {
+	if !stationary {
 		st.setPaths(t, pb.cur)
 		return st.Refresh()
 	}
@@ -120,11 +140,54 @@ func (pb *PathBlock) draw(st *State, rng *rand.Rand, t int) error {
 		after := pb.initialLogLik(st)
 		if math.Log(rng.Float64()) < after-before {
 			pb.Accepted++
-			return nil
+			before = after
+			copy(pb.old, pb.cur)
 		}
+	}
+	// Random walk on the full conditional.
+	for p := range pb.d {
+		pb.d[p] = rng.NormFloat64()
+	}
+	dense.SolveUpperT(pb.prec, n, pb.d)
+	c := math.Exp(pb.logStep)
+	copy(pb.cur, pb.old)
+	for p, f := range pb.free {
+		pb.cur[f] = pb.old[f] + c*pb.d[p]
+	}
+	logBefore := before - 0.5*pb.normalQuad(pb.old)
+	accepted := false
+	st.setPaths(t, pb.cur)
+	if err := st.Refresh(); err == nil {
+		if math.Log(rng.Float64()) < pb.initialLogLik(st)-0.5*pb.normalQuad(pb.cur)-logBefore {
+			accepted = true
+			copy(pb.old, pb.cur)
+		}
+	}
+	pb.Tries++
+	if accepted {
+		pb.Walked++
+	}
+	if st.Warmup {
+		adapt(&pb.logStep, accepted, 0.3, pb.Tries)
 	}
 	st.setPaths(t, pb.old)
 	return st.Refresh()
+}
+
+// normalQuad returns ||L'(a - mean)||^2 for the free entries of the J x J
+// block a: minus twice the log of the normal part of the conditional, up to
+// a constant (L, the Cholesky factor of its precision, is in pb.prec).
+func (pb *PathBlock) normalQuad(a []float64) float64 {
+	n := len(pb.free)
+	q := 0.0
+	for i := 0; i < n; i++ {
+		v := 0.0
+		for k := i; k < n; k++ {
+			v += pb.prec[k*n+i] * (a[pb.free[k]] - pb.mean[k])
+		}
+		q += v * v
+	}
+	return q
 }
 
 // initialLogLik is the log density of every person's first-occasion w under

@@ -2,9 +2,12 @@ package sampler
 
 import (
 	"context"
+	"errors"
 	"math"
+	"math/rand/v2"
 	"runtime"
 	"slices"
+	"strings"
 	"testing"
 )
 
@@ -172,5 +175,35 @@ func TestInjectInvertsExtract(t *testing.T) {
 				t.Errorf("%s: parameter %d: %v after Inject, want %v", p.name, k, got[k], v[k])
 			}
 		}
+	}
+}
+
+// nanBlock is a block that breaks the state, to test error reporting.
+type nanBlock struct{}
+
+func (nanBlock) Name() string { return "test block" }
+func (nanBlock) Update(st *State, _ *rand.Rand) error {
+	st.A[len(st.A)-1] = math.NaN()
+	return nil
+}
+
+// TestSweepNamesFailingBlock: a value that is not finite after a block is
+// reported with the block's name and what went wrong, and a run stops
+// with that error instead of writing NaN.
+func TestSweepNamesFailingBlock(t *testing.T) {
+	l := problems()[1].layout(t)
+	rng := newRand(3)
+	st := NewState(l, rng)
+	blocks := append(Blocks(l, "joint"), nanBlock{})
+	err := Sweep(st, blocks, rng)
+	var be *BlockError
+	if !errors.As(err, &be) || be.Block != "test block" || !strings.Contains(err.Error(), "carry-over path is not finite") {
+		t.Fatalf("got %v, want a BlockError naming the test block", err)
+	}
+	_, err = runOpts(context.Background(), l, Options{Chains: 1, Warmup: 2, Draws: 2, Seed: 1}, func(bs []Block) {
+		bs[len(bs)-1] = nanBlock{}
+	})
+	if err == nil || !strings.Contains(err.Error(), `"test block"`) || !strings.Contains(err.Error(), "sweep 1") {
+		t.Errorf("run: got %v, want the block and sweep named", err)
 	}
 }
