@@ -11,7 +11,11 @@ package model
 //     from carry-over);
 //   - random intercepts need at least two occasions;
 //   - a binary outcome with random intercepts and carry-over free over time
-//     needs at least four occasions.
+//     needs at least four occasions;
+//   - carry-over needs some person observed at two consecutive occasions,
+//     and random intercepts some person observed at two occasions (a grid
+//     of many occasions where everyone answered once carries no
+//     within-person information).
 func Identify(sp *Spec, pan *Panel) error {
 	p := &problems{}
 	T := pan.T()
@@ -42,5 +46,46 @@ func Identify(sp *Spec, pan *Panel) error {
 			}
 		}
 	}
+	if T >= 2 && (sp.Within.Lags != LagsNone || sp.Between.RandomIntercepts) {
+		repeated, consecutive := withinInformation(pan)
+		if sp.Within.Lags != LagsNone && !consecutive {
+			p.addf(f, 0, "within.lags: %s needs some person observed at two consecutive occasions; in %s nobody is", sp.Within.Lags, pan.File)
+		}
+		if sp.Between.RandomIntercepts && !repeated {
+			p.addf(f, 0, "between.random_intercepts: true needs some person observed at two occasions or more; in %s everyone was observed once", pan.File)
+		}
+	}
 	return p.err()
+}
+
+// withinInformation reports whether some person has observed values at
+// two occasions, and whether some person has them at two consecutive
+// grid occasions.
+func withinInformation(pan *Panel) (repeated, consecutive bool) {
+	J := pan.J()
+	for i := range pan.Persons {
+		seen, prev := 0, false
+		for t := 0; t < pan.Len[i]; t++ {
+			obs := false
+			for j := 0; j < J; j++ {
+				if v := pan.Y[pan.Offset[i]+t*J+j]; v == v {
+					obs = true
+				}
+			}
+			if obs {
+				seen++
+				if prev {
+					consecutive = true
+				}
+			}
+			prev = obs
+		}
+		if seen >= 2 {
+			repeated = true
+		}
+		if repeated && consecutive {
+			return
+		}
+	}
+	return
 }

@@ -178,6 +178,12 @@ func TestIdentifyRules(t *testing.T) {
 		{"within: {lags: own, over_time: free}", three, "need at least four occasions"},
 		{"within: {lags: own, over_time: free, first_occasion: stationary}", three, "stationary needs within.over_time: equal"},
 		{"within: {lags: none}\nbetween: {random_intercepts: true}", "p,t,a\n1,1,0\n2,1,1\n", "needs at least two occasions"},
+		// Everyone answered once, at different occasions.
+		{"within: {lags: own}\nbetween: {random_intercepts: false}", "p,t,a\n1,1,0\n2,2,1\n3,3,1\n4,1,1\n", "nobody is"},
+		{"within: {lags: none}\nbetween: {random_intercepts: true}", "p,t,a\n1,1,0\n2,2,1\n3,3,1\n", "everyone was observed once"},
+		// Two answers each, never at consecutive occasions.
+		{"within: {lags: own}\nbetween: {random_intercepts: false}", "p,t,a\n1,1,0\n1,3,1\n2,2,1\n2,4,0\n", "two consecutive occasions"},
+		{"within: {lags: none}\nbetween: {random_intercepts: true}", "p,t,a\n1,1,0\n1,3,1\n2,2,1\n2,4,0\n", ""},
 	}
 	for _, c := range cases {
 		sp := mustSpec(t, base+c.within+"\n")

@@ -150,6 +150,15 @@ func TestBadInput(t *testing.T) {
 			[]string{"--level"}},
 		{"unknown flag", goodModel, data, []string{"--chain", "3"},
 			[]string{"unknown flag: --chain"}},
+		{"outcome never varies", goodModel, strings.NewReplacer(",0\n", ",1\n").Replace(data), nil,
+			[]string{"data.csv", `outcome "pain" takes the single value "1"`, "never varies"}},
+		{"ordinal category never observed", strings.Replace(goodModel, "categories: 3", "categories: 4", 1), data, nil,
+			[]string{"data.csv", `outcome "mood": category 4 never observed`, "empty_categories: merge"}},
+		{"wide data: category out of range", strings.Replace(goodModel, "  occasion: wave\n", "  layout: wide\n", 1),
+			"id,mood_1,mood_2,pain_1,pain_2\npa,1,2,0,1\npb,3,9,1,0\npc,2,3,0,0\n", nil,
+			[]string{"data.csv:3:", `outcome "mood" (column "mood_2")`, "category 9 outside 1..3"}},
+		{"bad checkpoint interval", goodModel, data, []string{"--checkpoint-every", "-5"},
+			[]string{"--checkpoint-every"}},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
