@@ -3,6 +3,7 @@ package sampler
 import (
 	"context"
 	"errors"
+	"runtime"
 	"slices"
 	"sync"
 	"testing"
@@ -41,8 +42,8 @@ means: {over_time: free}
 
 // TestResumeGivesUninterruptedDraws: for every case, a run resumed from a
 // checkpoint taken part-way gives exactly the draws (and derived draws) of
-// the run that was never stopped; chains without a checkpoint start afresh
-// and still agree.
+// the run that was never stopped, also when resumed at another GOMAXPROCS;
+// chains without a checkpoint start afresh and still agree.
 func TestResumeGivesUninterruptedDraws(t *testing.T) {
 	for _, c := range checkpointCases() {
 		t.Run(c.name, func(t *testing.T) {
@@ -78,7 +79,10 @@ func TestResumeGivesUninterruptedDraws(t *testing.T) {
 			if c.opt.Chains > 1 {
 				saved[c.opt.Chains-1] = nil
 			}
+			// Resume on one core: the draws must not depend on it.
+			procs := runtime.GOMAXPROCS(1)
 			r, err := Resume(context.Background(), l, c.opt, saved)
+			runtime.GOMAXPROCS(procs)
 			if err != nil {
 				t.Fatal(err)
 			}
