@@ -9,6 +9,7 @@ package compare
 
 import (
 	"math"
+	"math/rand/v2"
 
 	"gonum.org/v1/gonum/mathext"
 )
@@ -31,42 +32,92 @@ func ghkTerm(a, b, u float64) (float64, float64) {
 	return p, mathext.NormalQuantile(pa + u*p)
 }
 
-// GHK estimates log P(lo < X < hi) for X ~ N(mu, L L') (L lower triangular,
-// n x n row-major) by the GHK simulator with the R rows of u (uniforms,
-// length n each) as its random numbers. It returns the log of the average
-// of the R products and the relative standard error of that average.
-func GHK(mu, L, lo, hi []float64, n int, u [][]float64, e []float64) (logP, relSE float64) {
-	var sum, sum2 float64
-	for _, ur := range u {
-		prod := 1.0
-		for k := 0; k < n; k++ {
-			m := mu[k]
-			for j := 0; j < k; j++ {
-				m += L[k*n+j] * e[j]
-			}
-			d := L[k*n+k]
-			p, z := ghkTerm((lo[k]-m)/d, (hi[k]-m)/d, ur[k])
-			prod *= p
-			if prod == 0 {
-				break
-			}
-			e[k] = z
+// Points are the uniforms GHK averages over: Sets blocks of equal size in
+// U, one after the other. From RandomizedHalton each block is the same
+// Halton set shifted by its own uniform vector modulo 1 (Cranley &
+// Patterson 1976), which makes every block an unbiased estimate and the
+// blocks independent, so the spread of the block averages gives the
+// Monte Carlo error (randomized quasi-Monte Carlo; L'Ecuyer & Lemieux
+// 2002). Plain Monte Carlo uniforms are the case of one point per block.
+type Points struct {
+	U    [][]float64
+	Sets int
+}
+
+// RandomizedHalton returns sets randomly shifted copies of the first
+// R/sets points (at least 1) of the n-dimensional Halton sequence, the
+// shifts drawn from a PCG stream seeded with seed.
+func RandomizedHalton(R, n, sets int, seed uint64) Points {
+	sets = max(1, min(sets, R))
+	per := max(R/sets, 1)
+	base := Halton(per, n)
+	rng := rand.New(rand.NewPCG(seed, 0x67686b))
+	u := make([][]float64, 0, per*sets)
+	shift := make([]float64, n)
+	for range sets {
+		for k := range shift {
+			shift[k] = rng.Float64()
 		}
-		sum += prod
-		sum2 += prod * prod
+		for _, b := range base {
+			row := make([]float64, n)
+			for k := range row {
+				v := b[k] + shift[k]
+				if v >= 1 {
+					v--
+				}
+				// Keep away from 0 and 1, where the normal quantile is infinite.
+				row[k] = min(max(v, 1e-15), 1-1e-15)
+			}
+			u = append(u, row)
+		}
 	}
-	R := float64(len(u))
-	mean := sum / R
+	return Points{U: u, Sets: sets}
+}
+
+// GHK estimates log P(lo < X < hi) for X ~ N(mu, L L') (L lower triangular,
+// n x n row-major) by the GHK simulator averaged over the points. It
+// returns the log of the average of the products and the relative standard
+// error of that average, from the spread of the block averages.
+func GHK(mu, L, lo, hi []float64, n int, pts Points, e []float64) (logP, relSE float64) {
+	per := len(pts.U) / pts.Sets
+	var sum, sumSq float64
+	for s := 0; s < pts.Sets; s++ {
+		blk := 0.0
+		for _, ur := range pts.U[s*per : (s+1)*per] {
+			prod := 1.0
+			for k := 0; k < n; k++ {
+				m := mu[k]
+				for j := 0; j < k; j++ {
+					m += L[k*n+j] * e[j]
+				}
+				d := L[k*n+k]
+				p, z := ghkTerm((lo[k]-m)/d, (hi[k]-m)/d, ur[k])
+				prod *= p
+				if prod == 0 {
+					break
+				}
+				e[k] = z
+			}
+			blk += prod
+		}
+		blk /= float64(per)
+		sum += blk
+		sumSq += blk * blk
+	}
+	S := float64(pts.Sets)
+	mean := sum / S
 	if mean <= 0 {
 		return math.Inf(-1), math.Inf(1)
 	}
-	v := math.Max(sum2/R-mean*mean, 0) / R
+	if pts.Sets < 2 {
+		return math.Log(mean), math.NaN()
+	}
+	v := math.Max(sumSq-S*mean*mean, 0) / (S - 1) / S
 	return math.Log(mean), math.Sqrt(v) / mean
 }
 
 // Halton returns R points of the n-dimensional Halton sequence (radical
-// inverses in the first n primes), skipping the first 20 points, as
-// quasi-random uniforms for GHK.
+// inverses in the first n primes), skipping the first 20 points.
 func Halton(R, n int) [][]float64 {
 	primes := firstPrimes(n)
 	out := make([][]float64, R)

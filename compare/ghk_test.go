@@ -7,6 +7,7 @@ import (
 
 	"github.com/lagstar/lagstar/internal/dense"
 	"gonum.org/v1/gonum/integrate/quad"
+	"gonum.org/v1/gonum/stat"
 )
 
 // bivariateRect returns P(lo < X < hi) for a bivariate normal with unit
@@ -25,7 +26,7 @@ func bivariateRect(rho float64, lo, hi []float64) float64 {
 // rectangle probability (quadrature), including one-sided and tail boxes.
 func TestGHKBivariateExact(t *testing.T) {
 	inf := math.Inf(1)
-	u := Halton(4000, 2)
+	u := RandomizedHalton(4000, 2, 10, 1)
 	e := make([]float64, 2)
 	for _, c := range []struct {
 		rho    float64
@@ -57,7 +58,7 @@ func TestGHKTrivariateMonteCarlo(t *testing.T) {
 	mu := []float64{0.2, -0.1, 0.3}
 	lo := []float64{-0.5, math.Inf(-1), 0}
 	hi := []float64{1, 0.4, math.Inf(1)}
-	got, rel := GHK(mu, L, lo, hi, 3, Halton(5000, 3), make([]float64, 3))
+	got, rel := GHK(mu, L, lo, hi, 3, RandomizedHalton(5000, 3, 10, 2), make([]float64, 3))
 	rng := rand.New(rand.NewPCG(1, 2))
 	const n = 2_000_000
 	hit := 0
@@ -85,4 +86,42 @@ func TestGHKTrivariateMonteCarlo(t *testing.T) {
 	if math.Abs(got-math.Log(p)) > 4*math.Hypot(se, rel) {
 		t.Errorf("log P = %.5f (GHK), brute force %.5f (rel. se %.2g)", got, math.Log(p), se)
 	}
+}
+
+// TestGHKErrorHonest: on a 24-dimensional box (an AR(1) path of binary
+// answers plus a random intercept), the relative standard error GHK
+// reports matches the spread of its estimates over independent
+// randomizations of the points.
+func TestGHKErrorHonest(t *testing.T) {
+	const n = 24
+	S := make([]float64, n*n)
+	for a := 0; a < n; a++ {
+		for b := 0; b < n; b++ {
+			S[a*n+b] = 1 + math.Pow(0.5, math.Abs(float64(a-b)))/(1-0.25)
+		}
+	}
+	L := append([]float64(nil), S...)
+	if !dense.Cholesky(L, n) {
+		t.Fatal("not positive definite")
+	}
+	mu, lo, hi := make([]float64, n), make([]float64, n), make([]float64, n)
+	for k := range lo {
+		if k%3 == 0 {
+			lo[k], hi[k] = math.Inf(-1), 0.3
+		} else {
+			lo[k], hi[k] = 0.3, math.Inf(1)
+		}
+	}
+	var ests, rels []float64
+	for seed := uint64(1); seed <= 60; seed++ {
+		got, rel := GHK(mu, L, lo, hi, n, RandomizedHalton(300, n, 10, seed), make([]float64, n))
+		ests = append(ests, got)
+		rels = append(rels, rel)
+	}
+	sd := stat.StdDev(ests, nil)
+	reported := stat.Mean(rels, nil) // relative se of P = se of log P, to first order
+	if r := reported / sd; r < 0.6 || r > 1.6 {
+		t.Errorf("reported se %.4f against the spread over randomizations %.4f (ratio %.2f)", reported, sd, r)
+	}
+	t.Logf("log P about %.3f: reported se %.4f, spread %.4f", stat.Mean(ests, nil), reported, sd)
 }

@@ -18,9 +18,10 @@ import (
 // within paths integrated out: y*_i is normal with mean nu and covariance
 // Psi on every pair of occasions plus the VAR(1) covariance of w, and y_i
 // is the event that each observed y* lies in its category's interval, a
-// rectangle probability estimated by GHK with R quasi-random points (the
-// same points for every draw: common random numbers). It also returns the
-// median relative Monte Carlo standard error of the GHK averages. Only
+// rectangle probability estimated by GHK with R randomized quasi-random
+// points (ten shifted Halton sets; the same points for every draw: common
+// random numbers). It also returns the median relative Monte Carlo
+// standard error of the GHK averages, estimated from the ten sets. Only
 // models whose outcomes are all categorical are supported.
 func LogLik(l *sampler.Layout, draws [][]float64, R int) ([][]float64, float64, error) {
 	return LogLikProgress(l, draws, R, nil)
@@ -34,7 +35,7 @@ func LogLikProgress(l *sampler.Layout, draws [][]float64, R int, progress func(d
 			return nil, 0, fmt.Errorf("outcome %q is continuous: person-level likelihoods are implemented for categorical outcomes only", l.Panel.Outcomes[j].Name)
 		}
 	}
-	u := Halton(R, l.MaxLen*l.J)
+	u := RandomizedHalton(R, l.MaxLen*l.J, ghkSets, 20261202)
 	out := make([][]float64, len(draws))
 	rel := make([][]float64, len(draws))
 	errs := make([]error, len(draws))
@@ -76,6 +77,9 @@ func LogLikProgress(l *sampler.Layout, draws [][]float64, R int, progress func(d
 	return out, median(all), nil
 }
 
+// ghkSets is the number of independently shifted point sets of GHK.
+const ghkSets = 10
+
 type personWork struct {
 	v                  []float64 // T blocks of J x J: Var(w_t)
 	blocks             []float64 // T x T blocks of J x J: Cov(w_t2, w_t1) for t1 <= t2
@@ -113,7 +117,7 @@ func (pw *personWork) prepare(st *sampler.State) {
 }
 
 // person returns log p(y_i | theta) and the GHK relative standard error.
-func (pw *personWork) person(st *sampler.State, i int, u [][]float64) (float64, float64) {
+func (pw *personWork) person(st *sampler.State, i int, u Points) (float64, float64) {
 	l := st.L
 	J := l.J
 	JJ := J * J
