@@ -1,7 +1,6 @@
 package compare
 
 import (
-	"fmt"
 	"math"
 	"math/rand/v2"
 	"runtime"
@@ -20,8 +19,12 @@ import (
 // is the event that each observed y* lies in its category's interval, a
 // rectangle probability estimated by GHK with R randomized quasi-random
 // points (ten shifted Halton sets; the same points for every draw: common
-// random numbers). It also returns the median relative Monte Carlo
-// standard error of the GHK averages, estimated from the ten sets. Only
+// random numbers). Observed continuous values enter through their normal
+// density (on the data's own scale) times the rectangle probability of the
+// categorical latent responses given them (the conditional normal), so
+// the likelihood is exact for continuous outcomes alone. It also returns
+// the median relative Monte Carlo standard error of the GHK averages,
+// estimated from the ten sets. Only
 // models whose outcomes are all categorical are supported.
 func LogLik(l *sampler.Layout, draws [][]float64, R int) ([][]float64, float64, error) {
 	return LogLikProgress(l, draws, R, nil)
@@ -30,11 +33,6 @@ func LogLik(l *sampler.Layout, draws [][]float64, R int) ([][]float64, float64, 
 // LogLikProgress is LogLik that reports the draws done to progress (done,
 // total; called from several goroutines) when progress is not nil.
 func LogLikProgress(l *sampler.Layout, draws [][]float64, R int, progress func(done, total int)) ([][]float64, float64, error) {
-	for j, c := range l.Cat {
-		if !c {
-			return nil, 0, fmt.Errorf("outcome %q is continuous: person-level likelihoods are implemented for categorical outcomes only", l.Panel.Outcomes[j].Name)
-		}
-	}
 	u := RandomizedHalton(R, l.MaxLen*l.J, ghkSets, 20261202)
 	out := make([][]float64, len(draws))
 	rel := make([][]float64, len(draws))
@@ -86,12 +84,18 @@ type personWork struct {
 	cov, chol          []float64 // n x n
 	mu, lo, hi, e, tmp []float64
 	idx                []int
+	// Continuous cells: their positions among the observed cells, the
+	// residuals y - mu, and S_cc^{-1} S_ck column by column.
+	cont, cat []int
+	res, col  []float64
+	sck       []float64
 }
 
 func newPersonWork(l *sampler.Layout) *personWork {
 	n := l.MaxLen * l.J
 	return &personWork{v: make([]float64, l.T*l.J*l.J), blocks: make([]float64, l.T*l.T*l.J*l.J), cov: make([]float64, n*n), chol: make([]float64, n*n),
-		mu: make([]float64, n), lo: make([]float64, n), hi: make([]float64, n), e: make([]float64, n), tmp: make([]float64, l.J*l.J), idx: make([]int, n)}
+		mu: make([]float64, n), lo: make([]float64, n), hi: make([]float64, n), e: make([]float64, n), tmp: make([]float64, l.J*l.J), idx: make([]int, n),
+		cont: make([]int, 0, n), cat: make([]int, 0, n), res: make([]float64, n), col: make([]float64, n), sck: make([]float64, n*n)}
 }
 
 // prepare computes the within-path covariances of the draw: V_1 = Sigma_1,
@@ -150,8 +154,11 @@ func (pw *personWork) person(st *sampler.State, i int, u Points) (float64, float
 		}
 		j := cp % J
 		pw.mu[p] = st.Nu[cp]
-		k := int(st.Y[off+cp])
 		pw.lo[p], pw.hi[p] = math.Inf(-1), math.Inf(1)
+		if !l.Cat[j] {
+			continue
+		}
+		k := int(st.Y[off+cp])
 		if k > 0 {
 			pw.lo[p] = st.Tau[j][k-1]
 		}
@@ -159,11 +166,103 @@ func (pw *personWork) person(st *sampler.State, i int, u Points) (float64, float
 			pw.hi[p] = st.Tau[j][k]
 		}
 	}
-	copy(pw.chol, pw.cov[:n*n])
-	if !dense.Cholesky(pw.chol, n) {
+	pw.cont, pw.cat = pw.cont[:0], pw.cat[:0]
+	for p := 0; p < n; p++ {
+		if l.Cat[pw.idx[p]%J] {
+			pw.cat = append(pw.cat, p)
+		} else {
+			pw.cont = append(pw.cont, p)
+		}
+	}
+	if len(pw.cont) == 0 {
+		copy(pw.chol, pw.cov[:n*n])
+		if !dense.Cholesky(pw.chol, n) {
+			return math.Inf(-1), math.Inf(1)
+		}
+		return GHK(pw.mu[:n], pw.chol[:n*n], pw.lo[:n], pw.hi[:n], n, u, pw.e)
+	}
+	return pw.mixed(st, off, n, u)
+}
+
+// mixed returns log p(y_i | theta) and the GHK relative standard error
+// for a person with observed continuous values: log N(y_c; mu_c, S_cc) on
+// the data's scale, plus log P(categorical latent responses in their
+// intervals | y_c) from the conditional normal (mean mu_k + S_kc S_cc^{-1}
+// (y_c - mu_c), covariance S_kk - S_kc S_cc^{-1} S_ck).
+func (pw *personWork) mixed(st *sampler.State, off, n int, u Points) (float64, float64) {
+	l := st.L
+	J := l.J
+	nc, nk := len(pw.cont), len(pw.cat)
+	// Cholesky of S_cc in chol (nc x nc).
+	cc := pw.chol[:nc*nc]
+	for a, pa := range pw.cont {
+		for b, pb := range pw.cont {
+			cc[a*nc+b] = pw.cov[pa*n+pb]
+		}
+	}
+	if !dense.Cholesky(cc, nc) {
 		return math.Inf(-1), math.Inf(1)
 	}
-	return GHK(pw.mu[:n], pw.chol[:n*n], pw.lo[:n], pw.hi[:n], n, u, pw.e)
+	// Whitened residuals L^{-1}(y_c - mu_c) give the quadratic form.
+	res := pw.res[:nc]
+	logLik := 0.0
+	for a, pa := range pw.cont {
+		c := pw.idx[pa]
+		res[a] = st.Y[off+c] - pw.mu[pa]
+		// Jacobian of the standardization: densities on the data's scale.
+		logLik -= math.Log(l.Scale[c%J])
+	}
+	dense.SolveLower(cc, nc, res)
+	for a := 0; a < nc; a++ {
+		logLik -= 0.5*res[a]*res[a] + math.Log(cc[a*nc+a]) + 0.5*math.Log(2*math.Pi)
+	}
+	if nk == 0 {
+		return logLik, 0
+	}
+	// S_cc^{-1} (y_c - mu_c) for the conditional mean.
+	dense.SolveUpperT(cc, nc, res)
+	// S_cc^{-1} S_ck, one categorical cell (column) at a time.
+	sck := pw.sck[:nc*nk]
+	col := pw.col[:nc]
+	for b, pb := range pw.cat {
+		for a, pa := range pw.cont {
+			col[a] = pw.cov[pa*n+pb]
+		}
+		dense.SolveLower(cc, nc, col)
+		dense.SolveUpperT(cc, nc, col)
+		for a := range col {
+			sck[a*nk+b] = col[a]
+		}
+	}
+	// Conditional covariance (after S_cc's factor in chol) and mean (in
+	// col) of the categorical cells.
+	for b, pb := range pw.cat {
+		for b2, pb2 := range pw.cat {
+			v := pw.cov[pb*n+pb2]
+			for a, pa := range pw.cont {
+				v -= pw.cov[pb*n+pa] * sck[a*nk+b2]
+			}
+			pw.chol[nc*nc+b*nk+b2] = v
+		}
+		m := pw.mu[pb]
+		for a, pa := range pw.cont {
+			m += pw.cov[pb*n+pa] * res[a]
+		}
+		pw.col[b] = m
+	}
+	kc := pw.chol[nc*nc : nc*nc+nk*nk]
+	if !dense.Cholesky(kc, nk) {
+		return math.Inf(-1), math.Inf(1)
+	}
+	// Pack the categorical bounds into the first nk entries: the b-th
+	// categorical cell sits at position pb >= b, so no entry is overwritten
+	// before it is read.
+	mu, lo, hi := pw.col[:nk], pw.lo, pw.hi
+	for b, pb := range pw.cat {
+		lo[b], hi[b] = pw.lo[pb], pw.hi[pb]
+	}
+	lp, rel := GHK(mu, kc, lo[:nk], hi[:nk], nk, u, pw.e)
+	return logLik + lp, rel
 }
 
 func median(x []float64) float64 {

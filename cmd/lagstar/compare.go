@@ -18,7 +18,7 @@ new person's whole record: the person-level likelihood integrates out the
 random intercepts and within-person paths (GHK simulator, quasi-random points,
 the same points for every posterior draw), then PSIS-LOO with Pareto k
 diagnostics and WAIC, and elpd differences from the best model with their
-standard errors. Outcomes must be categorical.`,
+standard errors. Continuous outcomes enter through their normal density.`,
 		Example: "  lagstar compare own-fit cross-fit --out comparison.json",
 		Args:    args(cobra.MinimumNArgs(2)),
 		RunE: func(cmd *cobra.Command, args []string) error {
