@@ -1,6 +1,7 @@
 package sampler
 
 import (
+	"context"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -87,4 +88,38 @@ func BenchmarkTruncNormalFloor(b *testing.B) {
 		s += latentresp.TruncStdNormal(rng, -0.4, 0.4)
 	}
 	_ = s
+}
+
+// BenchmarkCheckpoint times one chain checkpoint (encode only) of problems
+// D and P after warm-up with 1000 kept draws, and reports its size and its
+// cost in sweeps: with checkpoints every 500 sweeps the overhead is
+// sweeps-per-checkpoint / 500.
+func BenchmarkCheckpoint(b *testing.B) {
+	for _, p := range problems()[:2] {
+		b.Run(p.name, func(b *testing.B) {
+			l := p.layout(b)
+			r := newRunner(l, Options{Chains: 1, Warmup: 20, Draws: 1000, Seed: 1}, nil)
+			if err := r.run(context.Background()); err != nil {
+				b.Fatal(err)
+			}
+			ch := r.chains[0]
+			start := time.Now()
+			const sweeps = 20
+			for range sweeps {
+				Sweep(ch.st, ch.blocks, ch.rng)
+			}
+			perSweep := time.Since(start) / sweeps
+			var size int
+			b.ResetTimer()
+			for range b.N {
+				data, err := r.checkpoint(0)
+				if err != nil {
+					b.Fatal(err)
+				}
+				size = len(data)
+			}
+			b.ReportMetric(float64(size)/1e6, "MB")
+			b.ReportMetric(float64(b.Elapsed())/float64(b.N)/float64(perSweep), "sweeps")
+		})
+	}
 }

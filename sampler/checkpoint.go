@@ -38,11 +38,36 @@ type chainCheckpoint struct {
 	Rng         []byte
 	ShardRng    [][]byte
 
-	Ystar, B, Mean, Nu, A, Sig, Psi []float64
+	// Long vectors are packed as little-endian IEEE 754 bytes (packFloats):
+	// gob encodes floats one by one, which made a checkpoint of a diary
+	// panel cost tens of sweeps.
+	Ystar, B, Mean, Nu, A, Sig, Psi []byte
 	Tau, SD, R                      [][]float64
 
 	Blocks         [][]byte // persist() values of each block, gob-encoded, in sweep order
-	Draws, Derived []float64
+	Draws, Derived []byte
+}
+
+// packFloats returns x as little-endian IEEE 754 bytes.
+func packFloats(x []float64) []byte {
+	b := make([]byte, 8*len(x))
+	for i, v := range x {
+		binary.LittleEndian.PutUint64(b[8*i:], math.Float64bits(v))
+	}
+	return b
+}
+
+// unpackFloats decodes b into a new slice; ok is false when its length is
+// not a multiple of 8.
+func unpackFloats(b []byte) ([]float64, bool) {
+	if len(b)%8 != 0 {
+		return nil, false
+	}
+	x := make([]float64, len(b)/8)
+	for i := range x {
+		x[i] = math.Float64frombits(binary.LittleEndian.Uint64(b[8*i:]))
+	}
+	return x, true
 }
 
 // persistent is implemented by blocks that carry values from one sweep to
@@ -82,8 +107,9 @@ func (r *Runner) checkpoint(c int) ([]byte, error) {
 	st := ch.st
 	cp := chainCheckpoint{Format: checkpointFormat, Fingerprint: r.fp, Chain: c, Sweeps: ch.sweeps,
 		Target: r.res.Options.Draws, Kept: r.res.Kept[c],
-		Ystar: st.Ystar, B: st.B, Mean: st.Mean, Nu: st.Nu, A: st.A, Sig: st.Sig, Psi: st.Psi,
-		Tau: st.Tau, SD: st.SD, R: st.R, Draws: r.res.Draws[c], Derived: r.res.DerivedDraws[c]}
+		Ystar: packFloats(st.Ystar), B: packFloats(st.B), Mean: packFloats(st.Mean), Nu: packFloats(st.Nu), A: packFloats(st.A),
+		Sig: packFloats(st.Sig), Psi: packFloats(st.Psi), Tau: st.Tau, SD: st.SD, R: st.R,
+		Draws: packFloats(r.res.Draws[c]), Derived: packFloats(r.res.DerivedDraws[c])}
 	var err error
 	if cp.Rng, err = ch.src.MarshalBinary(); err != nil {
 		return nil, err
@@ -135,12 +161,21 @@ func (r *Runner) restore(c int, data []byte) (target int, err error) {
 	ch := r.chains[c]
 	st := ch.st
 	np, nd := len(r.res.Params), len(r.res.Derived)
+	var vec [9][]float64 // Ystar, B, Mean, Nu, A, Sig, Psi, Draws, Derived
+	for k, b := range [][]byte{cp.Ystar, cp.B, cp.Mean, cp.Nu, cp.A, cp.Sig, cp.Psi, cp.Draws, cp.Derived} {
+		x, ok := unpackFloats(b)
+		if !ok {
+			return bad("a vector is cut short")
+		}
+		vec[k] = x
+	}
+	ystar, bb, mean, nu, a, sig, psi, draws, derived := vec[0], vec[1], vec[2], vec[3], vec[4], vec[5], vec[6], vec[7], vec[8]
 	kept := max(cp.Sweeps-r.opt.Warmup, 0)
-	if cp.Sweeps < 0 || cp.Kept != kept || cp.Target < kept || len(cp.Draws) != kept*np || len(cp.Derived) != kept*nd {
+	if cp.Sweeps < 0 || cp.Kept != kept || cp.Target < kept || len(draws) != kept*np || len(derived) != kept*nd {
 		return bad("its sweep and draw counts disagree")
 	}
-	for _, v := range [][2]int{{len(cp.Ystar), len(st.Ystar)}, {len(cp.B), len(st.B)}, {len(cp.Mean), len(st.Mean)},
-		{len(cp.Nu), len(st.Nu)}, {len(cp.A), len(st.A)}, {len(cp.Sig), len(st.Sig)}, {len(cp.Psi), len(st.Psi)},
+	for _, v := range [][2]int{{len(ystar), len(st.Ystar)}, {len(bb), len(st.B)}, {len(mean), len(st.Mean)},
+		{len(nu), len(st.Nu)}, {len(a), len(st.A)}, {len(sig), len(st.Sig)}, {len(psi), len(st.Psi)},
 		{len(cp.Tau), len(st.Tau)}, {len(cp.SD), len(st.SD)}, {len(cp.R), len(st.R)},
 		{len(cp.ShardRng), len(st.shardSrc)}, {len(cp.Blocks), len(ch.blocks)}} {
 		if v[0] != v[1] {
@@ -157,7 +192,7 @@ func (r *Runner) restore(c int, data []byte) (target int, err error) {
 			return bad("its covariance sizes do not match the model")
 		}
 	}
-	for _, s := range [][]float64{cp.Ystar, cp.B, cp.Mean, cp.A, cp.Psi, cp.Draws} {
+	for _, s := range [][]float64{ystar, bb, mean, a, psi, draws} {
 		for _, v := range s {
 			if math.IsNaN(v) || math.IsInf(v, 0) {
 				return bad("it holds values that are not finite")
@@ -184,13 +219,13 @@ func (r *Runner) restore(c int, data []byte) (target int, err error) {
 			}
 		}
 	}
-	copy(st.Ystar, cp.Ystar)
-	copy(st.B, cp.B)
-	copy(st.Mean, cp.Mean)
-	copy(st.Nu, cp.Nu)
-	copy(st.A, cp.A)
-	copy(st.Sig, cp.Sig)
-	copy(st.Psi, cp.Psi)
+	copy(st.Ystar, ystar)
+	copy(st.B, bb)
+	copy(st.Mean, mean)
+	copy(st.Nu, nu)
+	copy(st.A, a)
+	copy(st.Sig, sig)
+	copy(st.Psi, psi)
 	for j := range cp.Tau {
 		copy(st.Tau[j], cp.Tau[j])
 	}
@@ -204,8 +239,8 @@ func (r *Runner) restore(c int, data []byte) (target int, err error) {
 	}
 	ch.sweeps = cp.Sweeps
 	r.res.Kept[c] = cp.Kept
-	r.res.Draws[c] = append(r.res.Draws[c][:0], cp.Draws...)
-	r.res.DerivedDraws[c] = append(r.res.DerivedDraws[c][:0], cp.Derived...)
+	r.res.Draws[c] = append(r.res.Draws[c][:0], draws...)
+	r.res.DerivedDraws[c] = append(r.res.DerivedDraws[c][:0], derived...)
 	return cp.Target, nil
 }
 
