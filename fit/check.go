@@ -88,7 +88,7 @@ func loadRun(dir string) (*finishedRun, error) {
 		return nil, model.Inputf(filepath.Join(dir, "run.json"), 0, "not valid: %v", err)
 	}
 	if !rec.Complete {
-		return nil, model.Inputf(dir, 0, "the run is incomplete (interrupted); a finished run is needed")
+		return nil, model.Inputf(dir, 0, "the run is incomplete (interrupted); finish it with lagstar fit --resume %s", dir)
 	}
 	data, err := model.ReadRunFile(dir, "data.csv")
 	if err != nil {
