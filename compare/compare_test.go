@@ -10,7 +10,8 @@ import (
 	"github.com/lagstar/lagstar/sampler"
 )
 
-func fitLL(t *testing.T, yaml string, csv []byte, S, R int) ModelFit {
+// layoutFrom builds a layout from model-file text and CSV content.
+func layoutFrom(t *testing.T, yaml string, csv []byte) *sampler.Layout {
 	t.Helper()
 	sp, err := model.ParseSpec("m.yaml", []byte(yaml))
 	if err != nil {
@@ -20,7 +21,13 @@ func fitLL(t *testing.T, yaml string, csv []byte, S, R int) ModelFit {
 	if err != nil {
 		t.Fatal(err)
 	}
-	l := sampler.NewLayout(sp, pan, priors.Default())
+	return sampler.NewLayout(sp, pan, priors.Default())
+}
+
+func fitLL(t *testing.T, yaml string, csv []byte, S, R int) ModelFit {
+	t.Helper()
+	l := layoutFrom(t, yaml, csv)
+	sp := l.Spec
 	res, err := sampler.Run(context.Background(), l, sampler.Options{Chains: 2, Warmup: 500, Draws: 500, Seed: 3})
 	if err != nil {
 		t.Fatal(err)

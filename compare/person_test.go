@@ -7,7 +7,6 @@ import (
 	"testing"
 
 	"github.com/lagstar/lagstar/model"
-	"github.com/lagstar/lagstar/priors"
 	"github.com/lagstar/lagstar/sampler"
 	"gonum.org/v1/gonum/mat"
 )
@@ -68,15 +67,7 @@ func drawOf(t *testing.T, yaml string, tr sampler.Truth, n, T int) (*sampler.Lay
 	if err != nil {
 		t.Fatal(err)
 	}
-	sp, err := model.ParseSpec("m.yaml", []byte(yaml))
-	if err != nil {
-		t.Fatal(err)
-	}
-	pan, err := model.ParsePanel(sp, "d.csv", csv)
-	if err != nil {
-		t.Fatal(err)
-	}
-	l := sampler.NewLayout(sp, pan, priors.Default())
+	l := layoutFrom(t, yaml, csv)
 	res, err := sampler.Run(context.Background(), l, sampler.Options{Chains: 1, Warmup: 40, Draws: 1, Seed: 2})
 	if err != nil {
 		t.Fatal(err)

@@ -2,8 +2,6 @@ package fit
 
 import (
 	"context"
-	"crypto/sha256"
-	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -12,7 +10,6 @@ import (
 	"strings"
 
 	"github.com/lagstar/lagstar/model"
-	"github.com/lagstar/lagstar/priors"
 	"github.com/lagstar/lagstar/report"
 	"github.com/lagstar/lagstar/sampler"
 )
@@ -64,49 +61,22 @@ type ResumeOptions struct {
 // afresh). The finished run folder equals that of a fit never stopped.
 func Resume(ctx context.Context, o ResumeOptions) (*Outcome, error) {
 	dir := o.RunDir
-	rawRun, err := model.ReadRunFile(dir, "run.json")
+	rec, data, l, err := openRun(dir)
 	if err != nil {
 		return nil, err
 	}
-	var rec report.RunRecord
-	if err := json.Unmarshal(rawRun, &rec); err != nil || rec.Program != report.Program {
-		return nil, model.Inputf(filepath.Join(dir, "run.json"), 0, "not a run record of lagstar fit")
-	}
-	switch rec.Status {
-	case report.StatusComplete:
+	switch {
+	case rec.Complete || rec.Status == report.StatusComplete:
 		return nil, model.Inputf(dir, 0, "the run is already complete; there is nothing to resume")
-	case report.StatusFailed:
+	case rec.Status == report.StatusFailed:
 		return nil, model.Inputf(dir, 0, "the run failed (%s); resuming would fail again: fit it anew", rec.Error)
-	case report.StatusRunning, report.StatusInterrupted:
+	case rec.Status == report.StatusRunning || rec.Status == report.StatusInterrupted:
 	default:
 		return nil, model.Inputf(filepath.Join(dir, "run.json"), 0, "status %q: expected running or interrupted", rec.Status)
 	}
 	if rec.Version != Version {
 		return nil, model.Inputf(filepath.Join(dir, "run.json"), 0, "written by lagstar %s; this is %s, whose draws could differ: resume with lagstar %s", rec.Version, Version, rec.Version)
 	}
-	data, err := model.ReadRunFile(dir, "data.csv")
-	if err != nil {
-		return nil, err
-	}
-	if sum := sha256.Sum256(data); hex.EncodeToString(sum[:]) != rec.DataSHA256 {
-		return nil, model.Inputf(filepath.Join(dir, "data.csv"), 0, "does not match the data of the run (SHA-256 differs from run.json)")
-	}
-	sp, err := model.ParseSpec(filepath.Join(dir, "run.json: model_content"), []byte(rec.ModelContent))
-	if err != nil {
-		return nil, err
-	}
-	sp.Data.File = filepath.Join(dir, "data.csv")
-	pan, err := model.ParsePanel(sp, sp.Data.File, data)
-	if err != nil {
-		return nil, err
-	}
-	if err := model.Identify(sp, pan); err != nil {
-		return nil, err
-	}
-	// Outputs name the files the run was first given, as a fit never
-	// stopped does.
-	sp.Path, pan.File = rec.ModelFile, rec.DataFile
-	l := sampler.NewLayout(sp, pan, priors.Default())
 	if rec.Chains < 1 || rec.Draws < 1 || rec.Warmup < 0 || !(rec.Level > 0 && rec.Level < 1) || rec.CheckpointEvery < 0 {
 		return nil, model.Inputf(filepath.Join(dir, "run.json"), 0, "its sampler settings are not valid (chains %d, warmup %d, draws %d, level %g)", rec.Chains, rec.Warmup, rec.Draws, rec.Level)
 	}

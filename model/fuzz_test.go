@@ -44,21 +44,7 @@ func FuzzParsePanel(f *testing.F) {
 	if err != nil {
 		f.Fatal(err)
 	}
-	f.Fuzz(func(t *testing.T, raw []byte) {
-		pan, err := ParsePanel(sp, "fuzz.csv", raw)
-		if err != nil {
-			if !IsInputError(err) {
-				t.Fatalf("error %v is not an InputError", err)
-			}
-			return
-		}
-		checkCells(t, pan)
-		again, err := ParsePanel(sp, "again.csv", writePanel(pan, sp))
-		if err != nil {
-			t.Fatalf("re-reading the written panel: %v", err)
-		}
-		samePanel(t, pan, again)
-	})
+	f.Fuzz(func(t *testing.T, raw []byte) { fuzzPanel(t, sp, raw, writePanel) })
 }
 
 // FuzzParseWidePanel: the same for wide data: no panics, input errors
@@ -73,21 +59,25 @@ func FuzzParseWidePanel(f *testing.F) {
 	if err != nil {
 		f.Fatal(err)
 	}
-	f.Fuzz(func(t *testing.T, raw []byte) {
-		pan, err := ParsePanel(sp, "fuzz.csv", raw)
-		if err != nil {
-			if !IsInputError(err) {
-				t.Fatalf("error %v is not an InputError", err)
-			}
-			return
+	f.Fuzz(func(t *testing.T, raw []byte) { fuzzPanel(t, sp, raw, writeWide) })
+}
+
+// fuzzPanel parses raw; an error must be an InputError; an accepted panel
+// must have its cells in range and read back the same after write.
+func fuzzPanel(t *testing.T, sp *Spec, raw []byte, write func(*Panel, *Spec) []byte) {
+	pan, err := ParsePanel(sp, "fuzz.csv", raw)
+	if err != nil {
+		if !IsInputError(err) {
+			t.Fatalf("error %v is not an InputError", err)
 		}
-		checkCells(t, pan)
-		again, err := ParsePanel(sp, "again.csv", writeWide(pan, sp))
-		if err != nil {
-			t.Fatalf("re-reading the written panel: %v", err)
-		}
-		samePanel(t, pan, again)
-	})
+		return
+	}
+	checkCells(t, pan)
+	again, err := ParsePanel(sp, "again.csv", write(pan, sp))
+	if err != nil {
+		t.Fatalf("re-reading the written panel: %v", err)
+	}
+	samePanel(t, pan, again)
 }
 
 // checkCells fails when a category cell is outside its outcome's range.
@@ -152,14 +142,7 @@ func writeWide(pan *Panel, sp *Spec) []byte {
 				if t < pan.Len[i] {
 					v = pan.Y[pan.Offset[i]+t*J+j]
 				}
-				switch {
-				case math.IsNaN(v):
-					rec = append(rec, "NA")
-				case o.K > 0:
-					rec = append(rec, o.Codes[int(v)])
-				default:
-					rec = append(rec, strconv.FormatFloat(v, 'g', -1, 64))
-				}
+				rec = append(rec, cellText(o, v))
 			}
 		}
 		w.Write(rec)
@@ -183,19 +166,24 @@ func writePanel(pan *Panel, sp *Spec) []byte {
 		for t := 0; t < pan.Len[i]; t++ {
 			rec := []string{id, strconv.Itoa(pan.Occasions[t])}
 			for j, o := range pan.Outcomes {
-				v := pan.Y[pan.Offset[i]+t*J+j]
-				switch {
-				case math.IsNaN(v):
-					rec = append(rec, "NA")
-				case o.K > 0:
-					rec = append(rec, o.Codes[int(v)])
-				default:
-					rec = append(rec, strconv.FormatFloat(v, 'g', -1, 64))
-				}
+				rec = append(rec, cellText(o, pan.Y[pan.Offset[i]+t*J+j]))
 			}
 			w.Write(rec)
 		}
 	}
 	w.Flush()
 	return b.Bytes()
+}
+
+// cellText writes a cell as the loader reads it: NA, a category code or a
+// number.
+func cellText(o Outcome, v float64) string {
+	switch {
+	case math.IsNaN(v):
+		return "NA"
+	case o.K > 0:
+		return o.Codes[int(v)]
+	default:
+		return strconv.FormatFloat(v, 'g', -1, 64)
+	}
 }
