@@ -226,6 +226,7 @@ func (r *Runner) advance(ctx context.Context, c int) error {
 	ch := r.chains[c]
 	res := r.res
 	total := r.opt.Warmup + res.Options.Draws
+	first := ch.sweeps // a checkpoint of this point exists already, or is not wanted
 	save := func() error {
 		if r.opt.Checkpoint == nil {
 			return nil
@@ -244,7 +245,7 @@ func (r *Runner) advance(ctx context.Context, c int) error {
 			break
 		}
 		sweep := ch.sweeps
-		if sweep > 0 && r.opt.CheckpointEvery > 0 && sweep%r.opt.CheckpointEvery == 0 {
+		if sweep > first && r.opt.CheckpointEvery > 0 && sweep%r.opt.CheckpointEvery == 0 {
 			if err := save(); err != nil {
 				return err
 			}
@@ -283,16 +284,27 @@ func Sweep(st *State, blocks []Block, rng *rand.Rand) error {
 			}
 			return &BlockError{Block: b.Name(), Msg: err.Error()}
 		}
-		if what := st.nonFinite(); what != "" {
+		if what := st.nonFinite(writesLatent(b)); what != "" {
 			return &BlockError{Block: b.Name(), Msg: what + " is not finite after this block"}
 		}
 	}
 	return nil
 }
 
-// nonFinite names the first parameter or latent response of the state that
-// is NaN or infinite, or returns "".
-func (s *State) nonFinite() string {
+// writesLatent reports whether block b may change latent responses; the
+// others leave Ystar alone, so it is not scanned after them. Blocks not
+// listed are taken to change it.
+func writesLatent(b Block) bool {
+	switch b.(type) {
+	case *InterceptBlock, *MeanBlock, *PathBlock, *CovBlock, *PsiBlock:
+		return false
+	}
+	return true
+}
+
+// nonFinite names the first parameter (or, when latent is true, latent
+// response) of the state that is NaN or infinite, or returns "".
+func (s *State) nonFinite(latent bool) string {
 	bad := func(x []float64) int {
 		for i, v := range x {
 			if v-v != 0 { // NaN or Inf
@@ -301,9 +313,11 @@ func (s *State) nonFinite() string {
 		}
 		return -1
 	}
-	if i := bad(s.Ystar); i >= 0 {
-		p, t, j := s.L.Panel.CellOf(i)
-		return fmt.Sprintf("the latent response of person %s at occasion %d, outcome %s,", s.L.Panel.Persons[p], s.L.Panel.Occasions[t], s.L.Panel.Outcomes[j].Name)
+	if latent {
+		if i := bad(s.Ystar); i >= 0 {
+			p, t, j := s.L.Panel.CellOf(i)
+			return fmt.Sprintf("the latent response of person %s at occasion %d, outcome %s,", s.L.Panel.Persons[p], s.L.Panel.Occasions[t], s.L.Panel.Outcomes[j].Name)
+		}
 	}
 	if i := bad(s.B); i >= 0 {
 		return fmt.Sprintf("the random intercept of person %s", s.L.Panel.Persons[i/s.L.J])
