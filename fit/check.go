@@ -79,7 +79,7 @@ type finishedRun struct {
 
 // loadRun reads a finished run folder.
 func loadRun(dir string) (*finishedRun, error) {
-	rec, _, l, err := openRun(dir)
+	rec, l, err := openRun(dir)
 	if err != nil {
 		return nil, err
 	}
@@ -100,36 +100,36 @@ func loadRun(dir string) (*finishedRun, error) {
 // openRun reads a run folder's run.json, checks its data copy against the
 // recorded SHA-256 and rebuilds the layout from the saved model content.
 // Outputs made from the layout name the files the run was first given.
-func openRun(dir string) (report.RunRecord, []byte, *sampler.Layout, error) {
+func openRun(dir string) (report.RunRecord, *sampler.Layout, error) {
 	var rec report.RunRecord
 	rawRun, err := model.ReadRunFile(dir, "run.json")
 	if err != nil {
-		return rec, nil, nil, err
+		return rec, nil, err
 	}
 	if err := json.Unmarshal(rawRun, &rec); err != nil || rec.Program != report.Program {
-		return rec, nil, nil, model.Inputf(filepath.Join(dir, "run.json"), 0, "not a run record of lagstar fit")
+		return rec, nil, model.Inputf(filepath.Join(dir, "run.json"), 0, "not a run record of lagstar fit")
 	}
 	data, err := model.ReadRunFile(dir, "data.csv")
 	if err != nil {
-		return rec, nil, nil, err
+		return rec, nil, err
 	}
 	if sum := sha256.Sum256(data); hex.EncodeToString(sum[:]) != rec.DataSHA256 {
-		return rec, nil, nil, model.Inputf(filepath.Join(dir, "data.csv"), 0, "does not match the data of the run (SHA-256 differs from run.json)")
+		return rec, nil, model.Inputf(filepath.Join(dir, "data.csv"), 0, "does not match the data of the run (SHA-256 differs from run.json)")
 	}
 	sp, err := model.ParseSpec(filepath.Join(dir, "run.json: model_content"), []byte(rec.ModelContent))
 	if err != nil {
-		return rec, nil, nil, err
+		return rec, nil, err
 	}
 	sp.Data.File = filepath.Join(dir, "data.csv")
 	pan, err := model.ParsePanel(sp, sp.Data.File, data)
 	if err != nil {
-		return rec, nil, nil, err
+		return rec, nil, err
 	}
 	if err := model.Identify(sp, pan); err != nil {
-		return rec, nil, nil, err
+		return rec, nil, err
 	}
 	sp.Path, pan.File = rec.ModelFile, rec.DataFile
-	return rec, data, sampler.NewLayout(sp, pan, priors.Default()), nil
+	return rec, sampler.NewLayout(sp, pan, priors.Default()), nil
 }
 
 // parseDraws reads draws.csv into parameter vectors in the order of

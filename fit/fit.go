@@ -153,7 +153,7 @@ func (j *job) failed(err error) error {
 	if j.dir != "" {
 		rec := j.record(nil)
 		rec.Status, rec.Error = report.StatusFailed, err.Error()
-		if werr := report.WriteRunRecord(j.dir, j.l.Panel.Raw, rec); werr != nil {
+		if werr := report.WriteRunRecord(j.dir, rec); werr != nil {
 			return fmt.Errorf("%w (and writing %s: %v)", err, j.dir, werr)
 		}
 		os.RemoveAll(filepath.Join(j.dir, checkpointDir))
@@ -217,8 +217,8 @@ func (j *job) finish(ctx context.Context, runner *sampler.Runner) (*Outcome, err
 			if j.dir != "" {
 				// A run stopped without warning in this round resumes into it.
 				rec := j.record(nil)
-				rec.Status, rec.Kept = report.StatusRunning, res.Kept
-				if err := report.WriteRunRecord(j.dir, j.l.Panel.Raw, rec); err != nil {
+				rec.Kept = res.Kept
+				if err := report.WriteRunRecord(j.dir, rec); err != nil {
 					return nil, fmt.Errorf("writing %s: %w", j.dir, err)
 				}
 			}

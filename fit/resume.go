@@ -61,7 +61,7 @@ type ResumeOptions struct {
 // afresh). The finished run folder equals that of a fit never stopped.
 func Resume(ctx context.Context, o ResumeOptions) (*Outcome, error) {
 	dir := o.RunDir
-	rec, data, l, err := openRun(dir)
+	rec, l, err := openRun(dir)
 	if err != nil {
 		return nil, err
 	}
@@ -106,7 +106,7 @@ func Resume(ctx context.Context, o ResumeOptions) (*Outcome, error) {
 		return report.WriteAtomic(checkpointFile(dir, chain), data)
 	}
 	rec.Status, rec.Complete = report.StatusRunning, false
-	if err := report.WriteRunRecord(dir, data, rec); err != nil {
+	if err := report.WriteRunRecord(dir, rec); err != nil {
 		return nil, fmt.Errorf("writing %s: %w", dir, err)
 	}
 	runner, err := sampler.Resume(ctx, l, j.opt, cps)

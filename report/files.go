@@ -161,16 +161,16 @@ func BeginRun(dir string, data []byte, rec RunRecord) error {
 			return err
 		}
 	}
-	return WriteRunRecord(dir, data, rec)
-}
-
-// WriteRunRecord writes data.csv and run.json into dir.
-func WriteRunRecord(dir string, data []byte, rec RunRecord) error {
-	runJSON, err := json.MarshalIndent(rec, "", "  ")
-	if err != nil {
+	if err := WriteAtomic(filepath.Join(dir, "data.csv"), data); err != nil {
 		return err
 	}
-	if err := WriteAtomic(filepath.Join(dir, "data.csv"), data); err != nil {
+	return WriteRunRecord(dir, rec)
+}
+
+// WriteRunRecord writes run.json into dir.
+func WriteRunRecord(dir string, rec RunRecord) error {
+	runJSON, err := json.MarshalIndent(rec, "", "  ")
+	if err != nil {
 		return err
 	}
 	return WriteAtomic(filepath.Join(dir, "run.json"), append(runJSON, '\n'))
