@@ -311,13 +311,20 @@ func wideColumns(sp *Spec, file string, header []string, col map[string]int) ([]
 			}
 			continue
 		}
+		// The pattern with the outcome's name in place of {outcome} and a
+		// whole number in place of {occasion}; the rest is literal text.
+		quote := func(part string) string {
+			pieces := strings.Split(part, "{outcome}")
+			for i := range pieces {
+				pieces[i] = regexp.QuoteMeta(pieces[i])
+			}
+			return strings.Join(pieces, regexp.QuoteMeta(o.Name))
+		}
 		pre, post, _ := strings.Cut(sp.Data.WideColumns, "{occasion}")
-		re, err := regexp.Compile("^" + regexp.QuoteMeta(strings.Replace(pre, "{outcome}", "\x00", 1)) + "(-?[0-9]+)" + regexp.QuoteMeta(strings.Replace(post, "{outcome}", "\x00", 1)) + "$")
+		re, err := regexp.Compile("^" + quote(pre) + "(-?[0-9]+)" + quote(post) + "$")
 		if err != nil {
 			return nil, Inputf(sp.Path, 0, "data.wide_columns: %v", err)
 		}
-		// The outcome's name goes where {outcome} was, quoted.
-		re = regexp.MustCompile(strings.Replace(re.String(), "\x00", regexp.QuoteMeta(o.Name), 1))
 		found := 0
 		for i, h := range header {
 			m := re.FindStringSubmatch(h)
