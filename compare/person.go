@@ -18,8 +18,8 @@ import (
 // Psi on every pair of occasions plus the VAR(1) covariance of w, and y_i
 // is the event that each observed y* lies in its category's interval, a
 // rectangle probability estimated by GHK with R randomized quasi-random
-// points (ten shifted Halton sets; the same points for every draw: common
-// random numbers). Observed continuous values enter through their normal
+// points (RandomizedPoints: ten shifted Halton sets padded with random
+// coordinates; the same points for every draw: common random numbers). Observed continuous values enter through their normal
 // density (on the data's own scale) times the rectangle probability of the
 // categorical latent responses given them (the conditional normal), so
 // the likelihood is exact for continuous outcomes alone. It also returns
@@ -33,7 +33,7 @@ func LogLik(l *sampler.Layout, draws [][]float64, R int) ([][]float64, float64, 
 // LogLikProgress is LogLik that reports the draws done to progress (done,
 // total; called from several goroutines) when progress is not nil.
 func LogLikProgress(l *sampler.Layout, draws [][]float64, R int, progress func(done, total int)) ([][]float64, float64, error) {
-	u := RandomizedHalton(R, l.MaxLen*l.J, ghkSets, 20261202)
+	u := RandomizedPoints(R, l.MaxLen*l.J, ghkSets, 20261202)
 	out := make([][]float64, len(draws))
 	rel := make([][]float64, len(draws))
 	errs := make([]error, len(draws))
