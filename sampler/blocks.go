@@ -294,6 +294,24 @@ func (*InterceptBlock) Name() string { return "random intercepts" }
 
 // Update implements Block.
 func (ib *InterceptBlock) Update(st *State, _ *rand.Rand) error {
+	if err := ib.prepare(st); err != nil {
+		return err
+	}
+	st.WQuadOK = false
+	st.Mom.ok = false
+	l := st.L
+	if len(l.ShardStart) == 2 {
+		ib.drawShard(st, 0, 0, l.N)
+	} else {
+		forShards(l, func(s, lo, hi int) { ib.drawShard(st, s, lo, hi) })
+	}
+	return nil
+}
+
+// prepare computes Psi^{-1}, the matrices G_t = (I-A_t)' Sigma_t^{-1} and
+// the conditional precisions (and their Cholesky factors) of persons
+// observed for 1..T occasions.
+func (ib *InterceptBlock) prepare(st *State) error {
 	l := st.L
 	J, T := l.J, l.T
 	JJ := J * J
@@ -329,13 +347,6 @@ func (ib *InterceptBlock) Update(st *State, _ *rand.Rand) error {
 		if !dense.Cholesky(ch, J) {
 			return errBlock("random intercepts", "conditional precision is not positive definite")
 		}
-	}
-	st.WQuadOK = false
-	st.Mom.ok = false
-	if len(l.ShardStart) == 2 {
-		ib.drawShard(st, 0, 0, l.N)
-	} else {
-		forShards(l, func(s, lo, hi int) { ib.drawShard(st, s, lo, hi) })
 	}
 	return nil
 }

@@ -82,6 +82,9 @@ func (tb *ThresholdBlock) persist() []any { return []any{&tb.logStep, &tb.tries}
 func (pb *PathBlock) persist() []any {
 	return []any{&pb.Accepted, &pb.Proposed, &pb.logStep, &pb.Tries, &pb.Walked}
 }
+func (cb *CollapsedBlock) persist() []any {
+	return []any{&cb.logStep, &cb.sumX, &cb.sumXX, &cb.seen, &cb.Tries, &cb.Accepts}
+}
 func (pb *LatentPathBlock) persist() []any { return []any{&pb.Bounces, &pb.Stuck} }
 
 // fingerprint identifies the layout (model, data, parameter list) and the
