@@ -128,6 +128,14 @@ func Fit(ctx context.Context, o Options) (*Outcome, error) {
 		j.maxDraws = o.MaxDraws
 	}
 	if j.dir != "" {
+		if err := os.MkdirAll(j.dir, 0o755); err != nil {
+			return nil, fmt.Errorf("create output folder: %w", err)
+		}
+		unlock, err := lockRun(j.dir)
+		if err != nil {
+			return nil, err
+		}
+		defer unlock()
 		if interruptedRun(j.dir) {
 			return nil, model.Inputf(j.dir, 0, "holds an unfinished run; finish it with lagstar fit --resume %s, or choose another --out folder (or remove this one)", j.dir)
 		}

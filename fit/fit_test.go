@@ -5,9 +5,11 @@ import (
 	"context"
 	"encoding/csv"
 	"os"
+	"os/exec"
 	"path/filepath"
 	"runtime"
 	"slices"
+	"strconv"
 	"strings"
 	"sync"
 	"testing"
@@ -332,5 +334,38 @@ func TestWideDataSameDraws(t *testing.T) {
 	}
 	if !bytes.Equal(draws[0], draws[1]) {
 		t.Error("draws from wide data differ from those of the same data in long layout")
+	}
+}
+
+// TestRunFolderLock: a fit or a resume refuses a folder held by a running
+// process, and takes over a lock left by one that is gone.
+func TestRunFolderLock(t *testing.T) {
+	dir := t.TempDir()
+	m, d := examples.SleepDiary()
+	o := Options{ModelPath: "m.yaml", ModelRaw: m, DataRaw: d, OutDir: dir, Chains: 1, Warmup: 5, Draws: 5, Seed: 1, SeedSet: true}
+	// Held by a running process: this test's parent (the go command).
+	lock := filepath.Join(dir, lockFile)
+	if err := os.WriteFile(lock, []byte(strconv.Itoa(os.Getppid())+"\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := Fit(context.Background(), o); err == nil || !strings.Contains(err.Error(), "in use by another lagstar fit") {
+		t.Fatalf("fit into a locked folder: got %v", err)
+	}
+	if _, err := os.Stat(filepath.Join(dir, "run.json")); err == nil {
+		t.Error("a refused fit wrote run.json")
+	}
+	// Left by a process that is gone.
+	done := exec.Command("true")
+	if err := done.Run(); err != nil {
+		t.Skip("no true command")
+	}
+	if err := os.WriteFile(lock, []byte(strconv.Itoa(done.Process.Pid)+"\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := Fit(context.Background(), o); err != nil {
+		t.Fatalf("fit over a stale lock: %v", err)
+	}
+	if _, err := os.Stat(lock); !os.IsNotExist(err) {
+		t.Errorf("lock left behind after the fit (stat: %v)", err)
 	}
 }

@@ -65,6 +65,11 @@ func Resume(ctx context.Context, o ResumeOptions) (*Outcome, error) {
 	if err != nil {
 		return nil, err
 	}
+	unlock, err := lockRun(dir)
+	if err != nil {
+		return nil, err
+	}
+	defer unlock()
 	switch {
 	case rec.Complete || rec.Status == report.StatusComplete:
 		return nil, model.Inputf(dir, 0, "the run is already complete; there is nothing to resume")
