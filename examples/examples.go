@@ -11,7 +11,7 @@ package examples
 
 import "embed"
 
-//go:embed sleepdiary/model.yaml sleepdiary/diary.csv
+//go:embed sleepdiary/model.yaml sleepdiary/diary.csv wristpain/model.yaml wristpain/staff.csv
 var files embed.FS
 
 // SleepDiary returns the model file and data of the sleep-diary example.
@@ -21,6 +21,20 @@ func SleepDiary() (modelYAML, dataCSV []byte) {
 		panic("examples: " + err.Error())
 	}
 	d, err := files.ReadFile("sleepdiary/diary.csv")
+	if err != nil {
+		panic("examples: " + err.Error())
+	}
+	return m, d
+}
+
+// WristPain returns the model file and the wide-layout data of the
+// wrist-pain example.
+func WristPain() (modelYAML, dataCSV []byte) {
+	m, err := files.ReadFile("wristpain/model.yaml")
+	if err != nil {
+		panic("examples: " + err.Error())
+	}
+	d, err := files.ReadFile("wristpain/staff.csv")
 	if err != nil {
 		panic("examples: " + err.Error())
 	}

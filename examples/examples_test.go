@@ -92,3 +92,86 @@ func TestGenerateSleepDiary(t *testing.T) {
 		t.Fatalf("sleepdiary/diary.csv differs from its generator; run go test ./examples -update")
 	}
 }
+
+// wristTruth is the invented truth behind the wrist-pain panel: workload
+// carries over to next year's pain (0.15) more than pain to workload.
+var wristTruth = sampler.Truth{
+	Names: []string{"pain", "workload"},
+	Types: []model.OutcomeType{model.Binary, model.Ordinal},
+	Tau:   [][]float64{{0.8}, {-0.9, 0.1, 1.0}},
+	Psi:   []float64{0.7, 0.25, 0.25, 0.5},
+	A:     []float64{0.3, 0.15, 0.05, 0.4},
+	Sigma: []float64{1, 0.2, 0.2, 1},
+}
+
+func generateWristPain() []byte {
+	rng := rand.New(rand.NewPCG(2019, 2024))
+	raw, err := sampler.Simulate(wristTruth, 300, 6, rng)
+	if err != nil {
+		panic(err)
+	}
+	recs, err := csv.NewReader(bytes.NewReader(raw)).ReadAll()
+	if err != nil {
+		panic(err)
+	}
+	head := []string{"employee"}
+	for y := 2019; y <= 2024; y++ {
+		head = append(head, fmt.Sprintf("pain_%d", y))
+	}
+	for y := 2019; y <= 2024; y++ {
+		head = append(head, fmt.Sprintf("workload_%d", y))
+	}
+	rows := map[int][]string{}
+	left := map[int]int{}
+	var ids []int
+	for _, r := range recs[1:] {
+		var id, t int
+		fmt.Sscan(r[0], &id)
+		fmt.Sscan(r[1], &t)
+		if rows[id] == nil {
+			rows[id] = make([]string, 13)
+			rows[id][0] = fmt.Sprintf("B%04d", 1000+id)
+			ids = append(ids, id)
+			left[id] = 7
+			if rng.Float64() < 0.2 {
+				left[id] = 3 + rng.IntN(4) // left the company after year 2..5
+			}
+		}
+		pain, load := "", ""
+		if t < left[id] {
+			if rng.Float64() >= 0.04 {
+				pain = map[string]string{"0": "no", "1": "yes"}[r[2]]
+			}
+			if rng.Float64() >= 0.04 {
+				var k int
+				fmt.Sscan(r[3], &k)
+				load = fmt.Sprint(k + 1)
+			}
+		}
+		rows[id][t] = pain
+		rows[id][6+t] = load
+	}
+	var buf bytes.Buffer
+	w := csv.NewWriter(&buf)
+	w.Write(head)
+	for _, id := range ids {
+		w.Write(rows[id])
+	}
+	w.Flush()
+	return buf.Bytes()
+}
+
+// TestGenerateWristPain keeps the embedded data equal to its generator;
+// run with -update to rewrite it.
+func TestGenerateWristPain(t *testing.T) {
+	got := generateWristPain()
+	if *update {
+		if err := os.WriteFile("wristpain/staff.csv", got, 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	_, want := WristPain()
+	if !bytes.Equal(got, want) {
+		t.Fatalf("wristpain/staff.csv differs from its generator; run go test ./examples -update")
+	}
+}

@@ -369,3 +369,21 @@ func TestRunFolderLock(t *testing.T) {
 		t.Errorf("lock left behind after the fit (stat: %v)", err)
 	}
 }
+
+// TestWristPainExample: the bundled wide-layout example reads as 300
+// employees over the six years named in its columns and fits.
+func TestWristPainExample(t *testing.T) {
+	m, d := examples.WristPain()
+	out, err := Fit(context.Background(), Options{ModelPath: "wristpain/model.yaml", ModelRaw: m, DataRaw: d,
+		Chains: 2, Warmup: 30, Draws: 30, Seed: 1, SeedSet: true, MaxDraws: 30})
+	if err != nil {
+		t.Fatal(err)
+	}
+	pan := out.Result.Layout.Panel
+	if len(pan.Persons) != 300 || !slices.Equal(pan.Occasions, []int{2019, 2020, 2021, 2022, 2023, 2024}) || pan.Rows != 300 {
+		t.Errorf("%d persons, %d rows, occasions %v", len(pan.Persons), pan.Rows, pan.Occasions)
+	}
+	if out.Result.Incomplete {
+		t.Error("run incomplete")
+	}
+}
