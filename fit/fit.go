@@ -7,6 +7,7 @@ import (
 	"context"
 	"crypto/rand"
 	"encoding/binary"
+	"errors"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -157,6 +158,18 @@ func Fit(ctx context.Context, o Options) (*Outcome, error) {
 // is neither taken for a result nor offered for resuming) and returns the
 // error to report.
 func (j *job) failed(err error) error {
+	var se *sampler.SaveError
+	if errors.As(err, &se) && j.dir != "" {
+		// Nothing is wrong with the run, only with writing it (a full
+		// disk): keep the checkpoints written so far for a resume.
+		err = fmt.Errorf("the run stopped: %w; make room (or repair %s) and finish it with lagstar fit --resume %s", err, j.dir, j.dir)
+		rec := j.record(nil)
+		rec.Status, rec.Error = report.StatusInterrupted, err.Error()
+		if werr := report.WriteRunRecord(j.dir, rec); werr != nil {
+			return fmt.Errorf("%w (and writing run.json: %v)", err, werr)
+		}
+		return err
+	}
 	err = fmt.Errorf("sampling failed: %w", err)
 	if j.dir != "" {
 		rec := j.record(nil)

@@ -387,3 +387,39 @@ func TestWristPainExample(t *testing.T) {
 		t.Error("run incomplete")
 	}
 }
+
+// TestCheckpointWriteFailure: when a checkpoint cannot be written (here
+// the checkpoint folder is replaced by a file, as a full disk would refuse
+// it), the fit stops, says how to go on, keeps run.json resumable, and a
+// resume after the repair gives the draws of a fit never stopped.
+func TestCheckpointWriteFailure(t *testing.T) {
+	o := Options{Chains: 2, Warmup: 20, Draws: 40, Seed: 6, CheckpointEvery: 10, CheckpointSet: true}
+	want := t.TempDir()
+	fitDir(t, context.Background(), want, o)
+
+	dir := t.TempDir()
+	var once sync.Once
+	cut := o
+	cut.Progress = func(chain, chains, done, total int) {
+		if done == 15 {
+			once.Do(func() {
+				os.RemoveAll(filepath.Join(dir, checkpointDir))
+				os.WriteFile(filepath.Join(dir, checkpointDir), []byte("not a folder"), 0o644)
+			})
+		}
+	}
+	m, d := examples.SleepDiary()
+	cut.ModelPath, cut.ModelRaw, cut.DataRaw, cut.OutDir, cut.SeedSet = "m.yaml", m, d, dir, true
+	_, err := Fit(context.Background(), cut)
+	if err == nil || !strings.Contains(err.Error(), "checkpoint") || !strings.Contains(err.Error(), "--resume "+dir) {
+		t.Fatalf("got %v, want a checkpoint error that says how to resume", err)
+	}
+	if s := string(readFile(t, filepath.Join(dir, "run.json"))); !strings.Contains(s, `"status": "interrupted"`) {
+		t.Fatalf("run.json after the failed checkpoint:\n%s", s)
+	}
+	os.Remove(filepath.Join(dir, checkpointDir))
+	if _, err := Resume(context.Background(), ResumeOptions{RunDir: dir}); err != nil {
+		t.Fatal(err)
+	}
+	sameOutputs(t, want, dir)
+}

@@ -27,6 +27,19 @@ const checkpointFormat = 1
 // given to (other data, model, seed or settings) or cannot be read.
 var ErrCheckpoint = errors.New("checkpoint does not match this run")
 
+// SaveError reports that a checkpoint could not be handed over (written):
+// the chain stopped there, and its earlier checkpoints still stand.
+type SaveError struct {
+	Chain, Sweep int
+	Err          error
+}
+
+func (e *SaveError) Error() string {
+	return fmt.Sprintf("checkpoint of chain %d after sweep %d: %v", e.Chain+1, e.Sweep, e.Err)
+}
+
+func (e *SaveError) Unwrap() error { return e.Err }
+
 // chainCheckpoint is what a checkpoint holds, gob-encoded.
 type chainCheckpoint struct {
 	Format      int

@@ -245,7 +245,7 @@ func (r *Runner) advance(ctx context.Context, c int) error {
 			err = r.opt.Checkpoint(c, b)
 		}
 		if err != nil {
-			return fmt.Errorf("checkpoint after sweep %d: %w", ch.sweeps, err)
+			return &SaveError{Chain: c, Sweep: ch.sweeps, Err: err}
 		}
 		return nil
 	}
