@@ -357,32 +357,10 @@ func (ib *InterceptBlock) drawShard(st *State, s, lo, hi int) {
 	l := st.L
 	J := l.J
 	JJ := J * J
-	e, h, r, rng := ib.e[s], ib.h[s], ib.r[s], st.ShardRng[s]
+	h, rng := ib.h[s], st.ShardRng[s]
 	for i := lo; i < hi; i++ {
-		off := l.Panel.Offset[i]
+		ib.personSums(st, s, i, false)
 		Ti := l.Panel.Len[i]
-		for c := 0; c < Ti*J; c++ {
-			e[c] = st.Ystar[off+c] - st.Nu[c]
-		}
-		dense.MulVec(h, st.SigInv[:JJ], e[:J], J, J)
-		for t := 1; t < Ti; t++ {
-			a := st.A[t*JJ : (t+1)*JJ]
-			for q := 0; q < J; q++ {
-				v := e[t*J+q]
-				for k := 0; k < J; k++ {
-					v -= a[q*J+k] * e[(t-1)*J+k]
-				}
-				r[q] = v
-			}
-			g := ib.g[t*JJ : (t+1)*JJ]
-			for q := 0; q < J; q++ {
-				v := 0.0
-				for k := 0; k < J; k++ {
-					v += g[q*J+k] * r[k]
-				}
-				h[q] += v
-			}
-		}
 		ch := ib.chol[(Ti-1)*JJ : Ti*JJ]
 		dense.SolveLower(ch, J, h)
 		for q := 0; q < J; q++ {
@@ -391,6 +369,51 @@ func (ib *InterceptBlock) drawShard(st *State, s, lo, hi int) {
 		dense.SolveUpperT(ch, J, h)
 		copy(st.B[i*J:i*J+J], h)
 	}
+}
+
+// personSums leaves in ib.h[s] person i's linear term h = sum_t G_t r_t of
+// the random intercepts' conditional (G_1 = Sigma_1^{-1}, r_1 = e_1,
+// r_t = e_t - A_t e_{t-1}, e = y* - nu). With quad it also returns
+// sum_t r_t' Sigma_t^{-1} r_t (else 0).
+func (ib *InterceptBlock) personSums(st *State, s, i int, quad bool) float64 {
+	l := st.L
+	J := l.J
+	JJ := J * J
+	e, h, r := ib.e[s], ib.h[s], ib.r[s]
+	off := l.Panel.Offset[i]
+	Ti := l.Panel.Len[i]
+	for c := 0; c < Ti*J; c++ {
+		e[c] = st.Ystar[off+c] - st.Nu[c]
+	}
+	dense.MulVec(h, st.SigInv[:JJ], e[:J], J, J)
+	sum := 0.0
+	if quad {
+		for q := 0; q < J; q++ {
+			sum += e[q] * h[q]
+		}
+	}
+	for t := 1; t < Ti; t++ {
+		a := st.A[t*JJ : (t+1)*JJ]
+		for q := 0; q < J; q++ {
+			v := e[t*J+q]
+			for k := 0; k < J; k++ {
+				v -= a[q*J+k] * e[(t-1)*J+k]
+			}
+			r[q] = v
+		}
+		g := ib.g[t*JJ : (t+1)*JJ]
+		for q := 0; q < J; q++ {
+			v := 0.0
+			for k := 0; k < J; k++ {
+				v += g[q*J+k] * r[k]
+			}
+			h[q] += v
+		}
+		if quad {
+			sum += dense.Quad(st.SigInv[t*JJ:(t+1)*JJ], r, J)
+		}
+	}
+	return sum
 }
 
 // PsiBlock draws the random-intercept covariance from its conjugate

@@ -41,8 +41,8 @@ type CollapsedBlock struct {
 	ib           *InterceptBlock // its precisions M_T and G_t
 	free         []int
 	oldA, oldPsi []float64
-	part         []float64   // per shard: partial sums
-	r            [][]float64 // per shard
+	part         []float64 // per shard: partial sums
+	lenTerm      []float64 // per path length T: -1/2 log|M_T| - 1/2 sum_{t<T} log|Sigma_t|
 	work         []float64
 	x, step      []float64 // current x; proposed step
 	chol         []float64 // Cholesky factor of the proposal covariance
@@ -58,7 +58,7 @@ type CollapsedBlock struct {
 func NewCollapsedBlock(l *Layout) *CollapsedBlock {
 	J := l.J
 	cb := &CollapsedBlock{ib: NewInterceptBlock(l), oldA: make([]float64, l.T*J*J), oldPsi: make([]float64, J*J),
-		part: make([]float64, len(l.ShardStart)-1), r: shardBufs(l, 2*J), work: make([]float64, 3*J*J+J)}
+		part: make([]float64, len(l.ShardStart)-1), lenTerm: make([]float64, l.T), work: make([]float64, 3*J*J+J)}
 	for k, f := range l.PathFree {
 		if f {
 			cb.free = append(cb.free, k)
@@ -102,6 +102,11 @@ func (cb *CollapsedBlock) logTarget(st *State) float64 {
 		trace += cb.ib.psiIn[j*J+j]
 	}
 	lp += -0.5*(df0+float64(J)+1)*logDetPsi - 0.5*l.Priors.RIScale*trace
+	logDetSig := 0.0
+	for t := range cb.lenTerm {
+		logDetSig += st.LogDet[t]
+		cb.lenTerm[t] = -0.5*dense.LogDetChol(cb.ib.chol[t*JJ:(t+1)*JJ], J) - 0.5*logDetSig
+	}
 	// Persons, in shards summed in order.
 	if len(l.ShardStart) == 2 {
 		cb.shard(st, 0, 0, l.N)
@@ -121,57 +126,17 @@ func (cb *CollapsedBlock) shard(st *State, s, lo, hi int) {
 	J := l.J
 	JJ := J * J
 	ib := cb.ib
-	e, h := ib.e[s], ib.h[s]
-	r, sr := cb.r[s][:J], cb.r[s][J:]
+	h := ib.h[s]
 	total := 0.0
 	for i := lo; i < hi; i++ {
-		off := l.Panel.Offset[i]
+		quad := ib.personSums(st, s, i, true)
 		Ti := l.Panel.Len[i]
-		for c := 0; c < Ti*J; c++ {
-			e[c] = st.Ystar[off+c] - st.Nu[c]
-		}
-		quad := 0.0
-		for t := 0; t < Ti; t++ {
-			if t == 0 {
-				copy(r, e[:J])
-			} else {
-				a := st.A[t*JJ : (t+1)*JJ]
-				for q := 0; q < J; q++ {
-					v := e[t*J+q]
-					for k := 0; k < J; k++ {
-						v -= a[q*J+k] * e[(t-1)*J+k]
-					}
-					r[q] = v
-				}
-			}
-			dense.MulVec(sr, st.SigInv[t*JJ:(t+1)*JJ], r, J, J)
-			for q := 0; q < J; q++ {
-				quad += r[q] * sr[q]
-			}
-			if t == 0 {
-				copy(h, sr)
-				continue
-			}
-			g := ib.g[t*JJ : (t+1)*JJ]
-			for q := 0; q < J; q++ {
-				v := 0.0
-				for k := 0; k < J; k++ {
-					v += g[q*J+k] * r[k]
-				}
-				h[q] += v
-			}
-		}
-		ch := ib.chol[(Ti-1)*JJ : Ti*JJ]
-		dense.SolveLower(ch, J, h)
+		dense.SolveLower(ib.chol[(Ti-1)*JJ:Ti*JJ], J, h)
 		hm := 0.0
 		for q := 0; q < J; q++ {
 			hm += h[q] * h[q]
 		}
-		logDetSig := 0.0
-		for t := 0; t < Ti; t++ {
-			logDetSig += st.LogDet[t]
-		}
-		total += -0.5*quad + 0.5*hm - dense.LogDetChol(ch, J)/2 - 0.5*logDetSig
+		total += -0.5*quad + 0.5*hm + cb.lenTerm[Ti-1]
 	}
 	cb.part[s] = total
 }
