@@ -15,26 +15,19 @@ import "embed"
 var files embed.FS
 
 // SleepDiary returns the model file and data of the sleep-diary example.
-func SleepDiary() (modelYAML, dataCSV []byte) {
-	m, err := files.ReadFile("sleepdiary/model.yaml")
-	if err != nil {
-		panic("examples: " + err.Error())
-	}
-	d, err := files.ReadFile("sleepdiary/diary.csv")
-	if err != nil {
-		panic("examples: " + err.Error())
-	}
-	return m, d
-}
+func SleepDiary() (modelYAML, dataCSV []byte) { return pair("sleepdiary/model.yaml", "sleepdiary/diary.csv") }
 
 // WristPain returns the model file and the wide-layout data of the
 // wrist-pain example.
-func WristPain() (modelYAML, dataCSV []byte) {
-	m, err := files.ReadFile("wristpain/model.yaml")
+func WristPain() (modelYAML, dataCSV []byte) { return pair("wristpain/model.yaml", "wristpain/staff.csv") }
+
+// pair reads an example's model file and data from the embedded files.
+func pair(modelFile, dataFile string) ([]byte, []byte) {
+	m, err := files.ReadFile(modelFile)
 	if err != nil {
 		panic("examples: " + err.Error())
 	}
-	d, err := files.ReadFile("wristpain/staff.csv")
+	d, err := files.ReadFile(dataFile)
 	if err != nil {
 		panic("examples: " + err.Error())
 	}

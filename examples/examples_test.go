@@ -81,15 +81,22 @@ func generateSleepDiary() []byte {
 // TestGenerateSleepDiary keeps the embedded data equal to its generator;
 // run with -update to rewrite it.
 func TestGenerateSleepDiary(t *testing.T) {
-	got := generateSleepDiary()
+	_, want := SleepDiary()
+	sameAsGenerated(t, "sleepdiary/diary.csv", generateSleepDiary(), want)
+}
+
+// sameAsGenerated fails unless the embedded file equals what its generator
+// gives; with -update it rewrites the file first.
+func sameAsGenerated(t *testing.T, path string, got, want []byte) {
+	t.Helper()
 	if *update {
-		if err := os.WriteFile("sleepdiary/diary.csv", got, 0o644); err != nil {
+		if err := os.WriteFile(path, got, 0o644); err != nil {
 			t.Fatal(err)
 		}
+		return
 	}
-	_, want := SleepDiary()
 	if !bytes.Equal(got, want) {
-		t.Fatalf("sleepdiary/diary.csv differs from its generator; run go test ./examples -update")
+		t.Fatalf("%s differs from its generator; run go test ./examples -update", path)
 	}
 }
 
@@ -164,14 +171,6 @@ func generateWristPain() []byte {
 // TestGenerateWristPain keeps the embedded data equal to its generator;
 // run with -update to rewrite it.
 func TestGenerateWristPain(t *testing.T) {
-	got := generateWristPain()
-	if *update {
-		if err := os.WriteFile("wristpain/staff.csv", got, 0o644); err != nil {
-			t.Fatal(err)
-		}
-	}
 	_, want := WristPain()
-	if !bytes.Equal(got, want) {
-		t.Fatalf("wristpain/staff.csv differs from its generator; run go test ./examples -update")
-	}
+	sameAsGenerated(t, "wristpain/staff.csv", generateWristPain(), want)
 }
