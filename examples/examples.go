@@ -15,11 +15,15 @@ import "embed"
 var files embed.FS
 
 // SleepDiary returns the model file and data of the sleep-diary example.
-func SleepDiary() (modelYAML, dataCSV []byte) { return pair("sleepdiary/model.yaml", "sleepdiary/diary.csv") }
+func SleepDiary() (modelYAML, dataCSV []byte) {
+	return pair("sleepdiary/model.yaml", "sleepdiary/diary.csv")
+}
 
 // WristPain returns the model file and the wide-layout data of the
 // wrist-pain example.
-func WristPain() (modelYAML, dataCSV []byte) { return pair("wristpain/model.yaml", "wristpain/staff.csv") }
+func WristPain() (modelYAML, dataCSV []byte) {
+	return pair("wristpain/model.yaml", "wristpain/staff.csv")
+}
 
 // pair reads an example's model file and data from the embedded files.
 func pair(modelFile, dataFile string) ([]byte, []byte) {
