@@ -1,6 +1,7 @@
 package main
 
 import (
+	"fmt"
 	"io"
 
 	"github.com/lagstar/lagstar/examples"
@@ -8,23 +9,45 @@ import (
 	"github.com/spf13/cobra"
 )
 
+// demoExample is one bundled, invented example the demo can fit.
+type demoExample struct {
+	model string // its model file's name inside examples/
+	files func() (modelYAML, dataCSV []byte)
+	intro string
+}
+
+var demoExamples = map[string]demoExample{
+	"sleepdiary": {"sleepdiary/model.yaml", examples.SleepDiary,
+		"Example (invented data): a nurses' sleep diary, 120 nurses x up to 42 evenings;\n" +
+			"rested = how rested they felt (1-5), headache = whether they had one (no/yes).\n"},
+	"wristpain": {"wristpain/model.yaml", examples.WristPain,
+		"Example (invented data, wide layout): a bakery chain's staff, 300 employees x 6 yearly waves (2019-2024);\n" +
+			"pain = wrist pain in the past year (no/yes), workload = how heavy their work was (1-4).\n"},
+}
+
 func newDemoCmd(stdout, stderr io.Writer) *cobra.Command {
-	o := &fitOptions{intro: "Example (invented data): a nurses' sleep diary, 120 nurses x up to 42 evenings;\n" +
-		"rested = how rested they felt (1-5), headache = whether they had one (no/yes).\n"}
+	o := &fitOptions{}
+	var example string
 	cmd := &cobra.Command{
 		Use:   "demo",
-		Short: "Fit the bundled, invented sleep-diary example and print the summary",
-		Long: `demo fits the bundled example: an invented diary of 120 nurses reporting for
-up to 42 days how rested they felt (1-5) and whether they had a headache
-(no/yes), with random intercepts and cross-lags. Nothing is written unless
---out is given.`,
+		Short: "Fit a bundled, invented example and print the summary",
+		Long: `demo fits a bundled example, by default an invented diary of 120 nurses
+reporting for up to 42 days how rested they felt (1-5) and whether they had
+a headache (no/yes), with random intercepts and cross-lags. --example
+wristpain fits the invented yearly wrist-pain panel of a bakery chain's
+staff, stored in wide layout. Nothing is written unless --out is given.`,
 		Args: args(cobra.NoArgs),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			if err := o.validate(); err != nil {
 				return err
 			}
-			m, d := examples.SleepDiary()
-			fo := fit.Options{ModelPath: "sleepdiary/model.yaml", ModelRaw: m, DataRaw: d, OutDir: o.out,
+			ex, ok := demoExamples[example]
+			if !ok {
+				return &usageError{fmt.Errorf("--example: expected sleepdiary or wristpain, got %q", example)}
+			}
+			o.intro = ex.intro
+			m, d := ex.files()
+			fo := fit.Options{ModelPath: ex.model, ModelRaw: m, DataRaw: d, OutDir: o.out,
 				Chains: o.chains, Warmup: o.warmup, Draws: o.draws, Seed: o.seed, SeedSet: cmd.Flags().Changed("seed"), Level: o.level,
 				UntilConverged: o.untilConverged, MaxDraws: o.maxDraws}
 			return runFit(cmd, fo, o, stdout, stderr)
@@ -32,5 +55,6 @@ up to 42 days how rested they felt (1-5) and whether they had a headache
 	}
 	o.bind(cmd)
 	cmd.Flags().StringVar(&o.out, "out", "", "also write the run folder here")
+	cmd.Flags().StringVar(&example, "example", "sleepdiary", "which example: sleepdiary or wristpain (wide layout)")
 	return cmd
 }

@@ -363,3 +363,14 @@ func TestInterruptThenResume(t *testing.T) {
 		t.Errorf("resuming a complete run: exit %d, %q", code, stderr)
 	}
 }
+
+// TestDemoExamples: demo fits either bundled example and refuses others.
+func TestDemoExamples(t *testing.T) {
+	code, stdout, stderr := runCLI("demo", "--example", "wristpain", "--quiet", "--warmup", "20", "--draws", "20", "--max-draws", "20")
+	if code != 0 || !strings.Contains(stdout, "wide layout") || !strings.Contains(stdout, "crosslag[workload->pain]") {
+		t.Errorf("demo --example wristpain: exit %d, stderr %q, output:\n%s", code, stderr, stdout)
+	}
+	if code, _, stderr := runCLI("demo", "--example", "nope"); code != 2 || !strings.Contains(stderr, "--example") {
+		t.Errorf("unknown example: exit %d, %q", code, stderr)
+	}
+}
