@@ -5,7 +5,6 @@ import (
 	"io"
 
 	"github.com/lagstar/lagstar/examples"
-	"github.com/lagstar/lagstar/fit"
 	"github.com/spf13/cobra"
 )
 
@@ -47,9 +46,8 @@ staff, stored in wide layout. Nothing is written unless --out is given.`,
 			}
 			o.intro = ex.intro
 			m, d := ex.files()
-			fo := fit.Options{ModelPath: ex.model, ModelRaw: m, DataRaw: d, OutDir: o.out,
-				Chains: o.chains, Warmup: o.warmup, Draws: o.draws, Seed: o.seed, SeedSet: cmd.Flags().Changed("seed"), Level: o.level,
-				UntilConverged: o.untilConverged, MaxDraws: o.maxDraws}
+			fo := o.fitOptions(cmd)
+			fo.ModelPath, fo.ModelRaw, fo.DataRaw, fo.OutDir = ex.model, m, d, o.out
 			return runFit(cmd, fo, o, stdout, stderr)
 		},
 	}

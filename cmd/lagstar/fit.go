@@ -70,9 +70,8 @@ the same seed would have given.`,
 				base := strings.TrimSuffix(filepath.Base(args[0]), filepath.Ext(args[0]))
 				out = base + "-fit"
 			}
-			fo := fit.Options{ModelPath: args[0], OutDir: out, Chains: o.chains, Warmup: o.warmup, Draws: o.draws,
-				Seed: o.seed, SeedSet: cmd.Flags().Changed("seed"), Level: o.level, UntilConverged: o.untilConverged, MaxDraws: o.maxDraws,
-				CheckpointEvery: o.checkpointEvery, CheckpointSet: cmd.Flags().Changed("checkpoint-every")}
+			fo := o.fitOptions(cmd)
+			fo.ModelPath, fo.OutDir = args[0], out
 			return runFit(cmd, fo, o, stdout, stderr)
 		},
 	}
@@ -94,6 +93,14 @@ func (o *fitOptions) bind(cmd *cobra.Command) {
 	f.BoolVar(&o.quiet, "quiet", false, "print no progress")
 	f.BoolVar(&o.untilConverged, "until-converged", false, "extend sampling in rounds until R-hat <= 1.01 and bulk/tail ESS >= 400 for every parameter")
 	f.IntVar(&o.maxDraws, "max-draws", 0, "cap on draws per chain for --until-converged (default from the model file, else 20000)")
+}
+
+// fitOptions maps the sampler flags shared by fit and demo onto fit.Options.
+func (o *fitOptions) fitOptions(cmd *cobra.Command) fit.Options {
+	f := cmd.Flags()
+	return fit.Options{Chains: o.chains, Warmup: o.warmup, Draws: o.draws, Seed: o.seed, SeedSet: f.Changed("seed"), Level: o.level,
+		UntilConverged: o.untilConverged, MaxDraws: o.maxDraws,
+		CheckpointEvery: o.checkpointEvery, CheckpointSet: f.Changed("checkpoint-every")}
 }
 
 func (o *fitOptions) validate() error {
