@@ -19,15 +19,17 @@ import (
 // interval of its replicated values and the posterior predictive p-value
 // P(T(y_rep) >= T(y)) (ties counted half).
 type Stat struct {
-	Name     string  `json:"name"`
-	Kind     string  `json:"kind"`
-	Outcome  string  `json:"outcome"`
-	With     string  `json:"with,omitempty"`
-	Observed float64 `json:"observed"`
-	RepMean  float64 `json:"replicated_mean"`
-	RepLow   float64 `json:"replicated_lower"`
-	RepHigh  float64 `json:"replicated_upper"`
-	PPP      float64 `json:"ppp"`
+	Name    string `json:"name"`
+	Kind    string `json:"kind"`
+	Outcome string `json:"outcome"`
+	// Outcomes names the pair of a joint statistic, the earlier occasion's
+	// outcome first for lagged ones; Outcome is then empty.
+	Outcomes []string `json:"outcomes,omitempty"`
+	Observed float64  `json:"observed"`
+	RepMean  float64  `json:"replicated_mean"`
+	RepLow   float64  `json:"replicated_lower"`
+	RepHigh  float64  `json:"replicated_upper"`
+	PPP      float64  `json:"ppp"`
 }
 
 // Result holds every statistic and how many posterior draws were used.
@@ -305,10 +307,10 @@ func statistics(l *sampler.Layout, y []float64) ([]Stat, []float64) {
 			for p := 0; p < Ka; p++ {
 				for q := 0; q < Kb; q++ {
 					if a < b {
-						add(Stat{Name: fmt.Sprintf("joint[%s=%s,%s=%s]", names[a], ca[p], names[b], cb[q]), Kind: "joint_share", Outcome: names[a], With: names[b]},
+						add(Stat{Name: fmt.Sprintf("joint[%s=%s,%s=%s]", names[a], ca[p], names[b], cb[q]), Kind: "joint_share", Outcomes: []string{names[a], names[b]}},
 							same[p*Kb+q]/math.Max(nSame, 1))
 					}
-					add(Stat{Name: fmt.Sprintf("lagged_joint[%s=%s->%s=%s]", names[a], ca[p], names[b], cb[q]), Kind: "lagged_joint_share", Outcome: names[b], With: names[a]},
+					add(Stat{Name: fmt.Sprintf("lagged_joint[%s=%s->%s=%s]", names[a], ca[p], names[b], cb[q]), Kind: "lagged_joint_share", Outcomes: []string{names[a], names[b]}},
 						lag[p*Kb+q]/math.Max(nLag, 1))
 				}
 			}

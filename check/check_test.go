@@ -52,9 +52,9 @@ func TestChecksFlagMissingRandomIntercepts(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	base := `data: {file: d.csv, person: person, occasion: occasion}
+	base := `data: {csv: d.csv, person: person, occasion: occasion}
 outcomes: [{name: y, type: binary}]
-within: {lags: own}
+dynamics: {lags: own}
 means: {over_time: equal}
 `
 	watched := map[string]bool{"transition": true, "lag2_transition": true, "person_means": true, "person_transition": true, "run_length": true}
@@ -62,7 +62,7 @@ means: {over_time: equal}
 		name, between string
 		correct       bool
 	}{{"correct", "true", true}, {"no random intercepts", "false", false}} {
-		res := fitAndCheck(t, base+"between: {random_intercepts: "+c.between+"}\n", csv)
+		res := fitAndCheck(t, base+"person_differences: {random_intercepts: "+c.between+"}\n", csv)
 		for _, s := range res.Stats {
 			if !watched[s.Kind] {
 				continue

@@ -53,9 +53,9 @@ func TestComparePrefersTrueCrossLag(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	base := "data: {file: d.csv, person: person, occasion: occasion}\noutcomes: [{name: a, type: binary}, {name: b, type: binary}]\nmeans: {over_time: equal}\n"
-	cross := fitLL(t, base+"within: {lags: cross}\n", csv, 150, 300)
-	own := fitLL(t, base+"within: {lags: own}\n", csv, 150, 300)
+	base := "data: {csv: d.csv, person: person, occasion: occasion}\noutcomes: [{name: a, type: binary}, {name: b, type: binary}]\nmeans: {over_time: equal}\n"
+	cross := fitLL(t, base+"dynamics: {lags: cross}\n", csv, 150, 300)
+	own := fitLL(t, base+"dynamics: {lags: own}\n", csv, 150, 300)
 	rs, err := Compare([]ModelFit{own, cross})
 	if err != nil {
 		t.Fatal(err)

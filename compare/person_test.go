@@ -126,9 +126,9 @@ func fullCov(st *sampler.State, T int) *mat.SymDense {
 func TestPersonLikelihoodContinuousExact(t *testing.T) {
 	tr := sampler.Truth{Names: []string{"x", "z"}, Types: []model.OutcomeType{model.Continuous, model.Continuous},
 		Psi: []float64{0.6, 0.2, 0.2, 0.5}, A: []float64{0.4, 0.1, 0, 0.3}, Sigma: []float64{1, 0.3, 0.3, 1}, Sigma1: []float64{1, 0.2, 0.2, 1}}
-	yaml := `data: {file: d.csv, person: person, occasion: occasion}
+	yaml := `data: {csv: d.csv, person: person, occasion: occasion}
 outcomes: [{name: x, type: continuous}, {name: z, type: continuous}]
-within: {lags: cross}
+dynamics: {lags: cross}
 means: {over_time: free}
 `
 	const T = 4
@@ -170,9 +170,9 @@ means: {over_time: free}
 func TestPersonLikelihoodMixed(t *testing.T) {
 	tr := sampler.Truth{Names: []string{"x", "b"}, Types: []model.OutcomeType{model.Continuous, model.Binary}, Tau: [][]float64{nil, {0.2}},
 		Psi: []float64{0.5, 0.2, 0.2, 0.6}, A: []float64{0.3, 0.1, 0.15, 0.3}, Sigma: []float64{1, 0.3, 0.3, 1}, Sigma1: []float64{1, 0.2, 0.2, 1}}
-	yaml := `data: {file: d.csv, person: person, occasion: occasion}
+	yaml := `data: {csv: d.csv, person: person, occasion: occasion}
 outcomes: [{name: x, type: continuous}, {name: b, type: binary}]
-within: {lags: cross}
+dynamics: {lags: cross}
 means: {over_time: equal}
 `
 	const T = 3

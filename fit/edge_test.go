@@ -82,9 +82,9 @@ func toCSV(recs [][]string) []byte {
 	return b.Bytes()
 }
 
-const edgeOrdinal = `data: {file: d.csv, person: person, occasion: occasion}
+const edgeOrdinal = `data: {csv: d.csv, person: person, occasion: occasion}
 outcomes: [{name: y, type: ordinal, categories: 4, lowest: 0}]
-within: {lags: own, first_occasion: %s}
+dynamics: {lags: own, first_occasion: %s}
 means: {over_time: equal}
 `
 
@@ -117,7 +117,7 @@ func TestEdgeCarryOverNearOne(t *testing.T) {
 	data := toCSV(simulate(t, tr, 120, 20, 2))
 	for _, first := range []string{"free", "stationary"} {
 		t.Run(first, func(t *testing.T) {
-			m := strings.ReplaceAll(edgeOrdinal, "%s", first) + "between: {random_intercepts: false}\n"
+			m := strings.ReplaceAll(edgeOrdinal, "%s", first) + "person_differences: {random_intercepts: false}\n"
 			got := edgeFit(t, m, data)
 			a := got["autoregression[y]"]
 			if !(a > 0.85 && a < 1) {
@@ -135,9 +135,9 @@ func TestEdgeFarTailThresholds(t *testing.T) {
 		Tau: [][]float64{{2.5}, {-2.7, 0, 2.7}}, Psi: []float64{0.3, 0, 0, 0.3}, A: []float64{0.2, 0, 0, 0.2},
 		Sigma: []float64{1, 0, 0, 1}, Sigma1: []float64{1, 0, 0, 1}}
 	recs := simulate(t, tr, 500, 8, 3)
-	m := `data: {file: d.csv, person: person, occasion: occasion}
+	m := `data: {csv: d.csv, person: person, occasion: occasion}
 outcomes: [{name: rare, type: binary}, {name: y, type: ordinal, categories: 4, lowest: 0}]
-within: {lags: own}
+dynamics: {lags: own}
 means: {over_time: equal}
 `
 	got := edgeFit(t, m, toCSV(recs))
@@ -171,9 +171,9 @@ func TestEdgeOneOccasionPersons(t *testing.T) {
 // categories of which one is never used fits once it is merged.
 func TestEdgeMergedEmptyCategory(t *testing.T) {
 	recs := simulate(t, ordinalTruth([]float64{-0.8, 0, 0.8}, 0.3, 0.5), 120, 6, 5)
-	m := `data: {file: d.csv, person: person, occasion: occasion}
+	m := `data: {csv: d.csv, person: person, occasion: occasion}
 outcomes: [{name: y, type: ordinal, categories: 5, lowest: 0, empty_categories: merge}]
-within: {lags: own}
+dynamics: {lags: own}
 means: {over_time: equal}
 `
 	got := edgeFit(t, m, toCSV(recs)) // category 4 never occurs

@@ -153,16 +153,16 @@ func truthFrom(sp *model.Spec, ts *model.TruthSpec, file string, T int) (sampler
 			tr.Psi[a*J+b], tr.Psi[b*J+a] = c, c
 		}
 	} else if len(ts.RIVar) > 0 {
-		bad("random_intercepts: the model file has between.random_intercepts: false")
+		bad("random_intercepts: the model file has person_differences.random_intercepts: false")
 	}
 	tr.A = make([]float64, J*J)
 	for _, p := range ts.Paths {
 		from, to := idx[p.From], idx[p.To]
 		switch {
 		case sp.Within.Lags == model.LagsNone:
-			bad("paths: the model file has within.lags: none")
+			bad("paths: the model file has dynamics.lags: none")
 		case sp.Within.Lags == model.LagsOwn && from != to:
-			bad("paths: %s -> %s is a cross-lag, but the model file has within.lags: own", p.From, p.To)
+			bad("paths: %s -> %s is a cross-lag, but the model file has dynamics.lags: own", p.From, p.To)
 		}
 		tr.A[to*J+from] = p.Value
 	}

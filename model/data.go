@@ -70,7 +70,7 @@ func LoadPanel(sp *Spec) (*Panel, error) {
 	raw, err := os.ReadFile(sp.Data.File)
 	if err != nil {
 		if errors.Is(err, os.ErrNotExist) {
-			return nil, Inputf(sp.Path, 0, "data.file: %s does not exist", sp.Data.File)
+			return nil, Inputf(sp.Path, 0, "data.csv: %s does not exist", sp.Data.File)
 		}
 		return nil, Inputf(sp.Data.File, 0, "cannot read data file: %v", err)
 	}

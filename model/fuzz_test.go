@@ -13,7 +13,7 @@ import (
 // returns is an InputError (exit status 2, never an internal failure).
 func FuzzParseSpec(f *testing.F) {
 	f.Add([]byte(spec2))
-	f.Add([]byte("data: {file: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\nsampler: {seed: 3, chains: 2}\n"))
+	f.Add([]byte("data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\nsampler: {seed: 3, chains: 2}\n"))
 	f.Add([]byte("outcomes:\n  - name: y\n    type: ordinal\n    labels: [lo, mid, hi]\n"))
 	f.Add([]byte("data: [\n"))
 	f.Fuzz(func(t *testing.T, raw []byte) {

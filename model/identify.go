@@ -22,37 +22,37 @@ func Identify(sp *Spec, pan *Panel) error {
 	J := len(sp.Outcomes)
 	f := sp.Path
 	if sp.Within.StationaryStart && sp.Within.PathsFree {
-		p.addf(f, 0, "within.first_occasion: stationary needs within.over_time: equal; a stationary distribution exists only when the carry-over paths and innovations are the same at every occasion")
+		p.addf(f, 0, "dynamics.first_occasion: stationary needs dynamics.over_time: equal; a stationary distribution exists only when the carry-over paths and innovations are the same at every occasion")
 	}
 	if sp.Within.Lags == LagsCross && J < 2 {
-		p.addf(f, 0, "within.lags: cross needs at least two outcomes (there is %d); use lags: own for one outcome", J)
+		p.addf(f, 0, "dynamics.lags: cross needs at least two outcomes (there is %d); use lags: own for one outcome", J)
 	}
 	if sp.Within.ResidualCorrelation && J < 2 {
-		p.addf(f, 0, "within.residual_correlation: true needs at least two outcomes (there is %d)", J)
+		p.addf(f, 0, "dynamics.residual_correlation: true needs at least two outcomes (there is %d)", J)
 	}
 	if sp.Within.Lags != LagsNone && T < 2 {
-		p.addf(f, 0, "within.lags: %s needs at least two occasions; the data have %d", sp.Within.Lags, T)
+		p.addf(f, 0, "dynamics.lags: %s needs at least two occasions; the data have %d", sp.Within.Lags, T)
 	}
 	if sp.Between.RandomIntercepts && T < 2 {
-		p.addf(f, 0, "between.random_intercepts: true needs at least two occasions; with one, the person difference and the occasion residual cannot be told apart")
+		p.addf(f, 0, "person_differences.random_intercepts: true needs at least two occasions; with one, the person difference and the occasion residual cannot be told apart")
 	}
 	if sp.Between.RandomIntercepts && sp.Within.Lags != LagsNone && T == 2 {
-		p.addf(f, 0, "between.random_intercepts with within.lags: %s needs at least three occasions; with two, a stable person difference and carry-over explain the same association", sp.Within.Lags)
+		p.addf(f, 0, "person_differences.random_intercepts with dynamics.lags: %s needs at least three occasions; with two, a stable person difference and carry-over explain the same association", sp.Within.Lags)
 	}
 	if sp.Between.RandomIntercepts && sp.Within.Lags != LagsNone && sp.Within.PathsFree && T == 3 {
 		for _, o := range pan.Outcomes {
 			if o.Type == Binary {
-				p.addf(f, 0, "outcome %q is binary: random intercepts with carry-over free over time need at least four occasions; use within.over_time: equal", o.Name)
+				p.addf(f, 0, "outcome %q is binary: random intercepts with carry-over free over time need at least four occasions; use dynamics.over_time: equal", o.Name)
 			}
 		}
 	}
 	if T >= 2 && (sp.Within.Lags != LagsNone || sp.Between.RandomIntercepts) {
 		repeated, consecutive := withinInformation(pan)
 		if sp.Within.Lags != LagsNone && !consecutive {
-			p.addf(f, 0, "within.lags: %s needs some person observed at two consecutive occasions; in %s nobody is", sp.Within.Lags, pan.File)
+			p.addf(f, 0, "dynamics.lags: %s needs some person observed at two consecutive occasions; in %s nobody is", sp.Within.Lags, pan.File)
 		}
 		if sp.Between.RandomIntercepts && !repeated {
-			p.addf(f, 0, "between.random_intercepts: true needs some person observed at two occasions or more; in %s everyone was observed once", pan.File)
+			p.addf(f, 0, "person_differences.random_intercepts: true needs some person observed at two occasions or more; in %s everyone was observed once", pan.File)
 		}
 	}
 	return p.err()

@@ -8,11 +8,11 @@ import (
 	"testing"
 )
 
-const spec2 = `data: {file: d.csv, person: who, occasion: wave}
+const spec2 = `data: {csv: d.csv, person: who, occasion: wave}
 outcomes:
   - {name: mood, type: ordinal, categories: 4, lowest: 1}
   - {name: sick, type: binary, labels: ["no", "yes"]}
-within: {lags: cross}
+dynamics: {lags: cross}
 `
 
 func mustSpec(t *testing.T, text string) *Spec {
@@ -79,9 +79,9 @@ func TestPersonsSortedNumerically(t *testing.T) {
 // message naming the outcome, the categories and the way out; with
 // empty_categories: merge it is dropped, the rest renumbered, and noted.
 func TestEmptyCategories(t *testing.T) {
-	const m = `data: {file: d.csv, person: p, occasion: t}
+	const m = `data: {csv: d.csv, person: p, occasion: t}
 outcomes: [{name: y, type: ordinal, categories: 5%s}]
-within: {lags: none}
+dynamics: {lags: none}
 `
 	data := []byte("p,t,y\n1,1,1\n1,2,2\n2,1,4\n2,2,2\n3,1,1\n")
 	_, err := ParsePanel(mustSpec(t, fmt.Sprintf(m, "")), "d.csv", data)
@@ -122,7 +122,7 @@ func TestSingleValuedOutcome(t *testing.T) {
 		{"ordinal, categories: 3", "p,t,y\n1,1,2\n1,2,2\n2,1,NA\n"},
 		{"continuous", "p,t,y\n1,1,3.5\n1,2,3.5\n2,1,3.5\n"},
 	} {
-		sp := mustSpec(t, "data: {file: d.csv, person: p, occasion: t}\noutcomes: [{name: y, type: "+c.typ+"}]\nwithin: {lags: none}\n")
+		sp := mustSpec(t, "data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: y, type: "+c.typ+"}]\ndynamics: {lags: none}\n")
 		_, err := ParsePanel(sp, "d.csv", []byte(c.data))
 		if err == nil || !IsInputError(err) || !strings.Contains(err.Error(), "never varies") || !strings.Contains(err.Error(), `outcome "y"`) {
 			t.Errorf("%s: got %v, want a never-varies input error", c.typ, err)
@@ -131,13 +131,13 @@ func TestSingleValuedOutcome(t *testing.T) {
 }
 
 func TestSpecDefaults(t *testing.T) {
-	sp := mustSpec(t, "data: {file: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}, {name: b, type: binary}]\n")
+	sp := mustSpec(t, "data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}, {name: b, type: binary}]\n")
 	if !sp.Between.RandomIntercepts || sp.Within.Lags != LagsCross || !sp.Within.ResidualCorrelation ||
 		sp.Within.PathsFree || sp.Within.StationaryStart || !sp.Means.Free || sp.Sampler.Chains != 4 ||
 		sp.Sampler.Warmup != 1000 || sp.Sampler.Draws != 1000 || sp.Sampler.SeedSet || sp.Sampler.ThresholdUpdate != ThresholdJoint {
 		t.Errorf("defaults wrong: %+v", sp)
 	}
-	one := mustSpec(t, "data: {file: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\nwithin: {lags: own}\n")
+	one := mustSpec(t, "data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\ndynamics: {lags: own}\n")
 	if one.Within.ResidualCorrelation {
 		t.Error("one outcome: residual correlation should default to false")
 	}
@@ -146,14 +146,19 @@ func TestSpecDefaults(t *testing.T) {
 // TestSpecErrors checks that each model-file mistake is reported with its line.
 func TestSpecErrors(t *testing.T) {
 	cases := []struct{ text, want string }{
-		{"data: {file: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binari}]\n", `m.yaml:2: outcome "a": type: expected one of ordinal, binary, continuous, got "binari" (did you mean "binary"?)`},
-		{"data: {file: d.csv, person: p}\noutcomes: [{name: a, type: binary}]\n", `data: missing key "occasion"`},
-		{"data: {file: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: ordinal, categories: 2}]\n", "an ordinal outcome needs 3 to 11 categories"},
-		{"data: {file: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\nsampler: {chains: many}\n", `m.yaml:3: sampler.chains: expected a whole number from 1 to 64, got "many"`},
-		{"data: {file: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}, {name: a, type: binary}]\n", `"a" is listed twice`},
+		{"data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binari}]\n", `m.yaml:2: outcome "a": type: expected one of ordinal, binary, continuous, got "binari" (did you mean "binary"?)`},
+		{"data: {csv: d.csv, person: p}\noutcomes: [{name: a, type: binary}]\n", `data: missing key "occasion"`},
+		{"data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: ordinal, categories: 2}]\n", "an ordinal outcome needs 3 to 11 categories"},
+		{"data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\nsampler: {chains: many}\n", `m.yaml:3: sampler.chains: expected a whole number from 1 to 64, got "many"`},
+		{"data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}, {name: a, type: binary}]\n", `"a" is listed twice`},
 		{"data: [1, 2]\noutcomes: [{name: a, type: binary}]\n", "data: expected a set of keys"},
-		{"data: {file: d.csv\n", "not valid YAML"},
+		{"data: {csv: d.csv\n", "not valid YAML"},
 		{"", "model file is empty"},
+		// Keys of earlier model files are not aliases; the message names the new key.
+		{"data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\nbetween: {random_intercepts: true}\n", `m.yaml:3: unknown key: "between" (this key is now called "person_differences")`},
+		{"data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\nwithin: {lags: own}\n", `unknown key: "within" (this key is now called "dynamics")`},
+		{"data: {file: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\n", `unknown key in data: "file" (this key is now called "csv")`},
+		{"data: {csv: d.csv, person: p, occasion: t, missing: [NA]}\noutcomes: [{name: a, type: binary}]\n", `unknown key in data: "missing" (this key is now called "missing_codes")`},
 	}
 	for _, c := range cases {
 		_, err := ParseSpec("m.yaml", []byte(c.text))
@@ -167,23 +172,23 @@ func TestSpecErrors(t *testing.T) {
 }
 
 func TestIdentifyRules(t *testing.T) {
-	base := "data: {file: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\n"
+	base := "data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\n"
 	two := "p,t,a\n1,1,0\n1,2,1\n2,1,1\n2,2,0\n"
 	three := "p,t,a\n1,1,0\n1,2,1\n1,3,1\n2,1,1\n2,2,0\n2,3,0\n"
 	cases := []struct {
 		within, data, want string
 	}{
-		{"within: {lags: own}", two, "needs at least three occasions"},
-		{"within: {lags: own}", three, ""},
-		{"within: {lags: own, over_time: free}", three, "need at least four occasions"},
-		{"within: {lags: own, over_time: free, first_occasion: stationary}", three, "stationary needs within.over_time: equal"},
-		{"within: {lags: none}\nbetween: {random_intercepts: true}", "p,t,a\n1,1,0\n2,1,1\n", "needs at least two occasions"},
+		{"dynamics: {lags: own}", two, "needs at least three occasions"},
+		{"dynamics: {lags: own}", three, ""},
+		{"dynamics: {lags: own, over_time: free}", three, "need at least four occasions"},
+		{"dynamics: {lags: own, over_time: free, first_occasion: stationary}", three, "stationary needs dynamics.over_time: equal"},
+		{"dynamics: {lags: none}\nperson_differences: {random_intercepts: true}", "p,t,a\n1,1,0\n2,1,1\n", "needs at least two occasions"},
 		// Everyone answered once, at different occasions.
-		{"within: {lags: own}\nbetween: {random_intercepts: false}", "p,t,a\n1,1,0\n2,2,1\n3,3,1\n4,1,1\n", "nobody is"},
-		{"within: {lags: none}\nbetween: {random_intercepts: true}", "p,t,a\n1,1,0\n2,2,1\n3,3,1\n", "everyone was observed once"},
+		{"dynamics: {lags: own}\nperson_differences: {random_intercepts: false}", "p,t,a\n1,1,0\n2,2,1\n3,3,1\n4,1,1\n", "nobody is"},
+		{"dynamics: {lags: none}\nperson_differences: {random_intercepts: true}", "p,t,a\n1,1,0\n2,2,1\n3,3,1\n", "everyone was observed once"},
 		// Two answers each, never at consecutive occasions.
-		{"within: {lags: own}\nbetween: {random_intercepts: false}", "p,t,a\n1,1,0\n1,3,1\n2,2,1\n2,4,0\n", "two consecutive occasions"},
-		{"within: {lags: none}\nbetween: {random_intercepts: true}", "p,t,a\n1,1,0\n1,3,1\n2,2,1\n2,4,0\n", ""},
+		{"dynamics: {lags: own}\nperson_differences: {random_intercepts: false}", "p,t,a\n1,1,0\n1,3,1\n2,2,1\n2,4,0\n", "two consecutive occasions"},
+		{"dynamics: {lags: none}\nperson_differences: {random_intercepts: true}", "p,t,a\n1,1,0\n1,3,1\n2,2,1\n2,4,0\n", ""},
 	}
 	for _, c := range cases {
 		sp := mustSpec(t, base+c.within+"\n")
@@ -202,13 +207,13 @@ func TestIdentifyRules(t *testing.T) {
 }
 
 const wideSpec = `data:
-  file: w.csv
+  csv: w.csv
   person: who
   layout: wide
 outcomes:
   - {name: mood, type: ordinal, categories: 3, lowest: 1}
   - {name: sick, type: binary, labels: ["no", "yes"]}
-within: {lags: cross}
+dynamics: {lags: cross}
 `
 
 // TestWideEqualsLong: wide data (one row per person; columns found by
@@ -249,17 +254,17 @@ func TestWideEqualsLong(t *testing.T) {
 	}
 }
 
-const spec2Long3 = `data: {file: l.csv, person: who, occasion: wave}
+const spec2Long3 = `data: {csv: l.csv, person: who, occasion: wave}
 outcomes:
   - {name: mood, type: ordinal, categories: 3, lowest: 1}
   - {name: sick, type: binary, labels: ["no", "yes"]}
-within: {lags: cross}
+dynamics: {lags: cross}
 `
 
 // TestWideColumnsMapped: an outcome's columns can be listed per occasion,
 // and the pattern can be any text around {outcome} and {occasion}.
 func TestWideColumnsMapped(t *testing.T) {
-	sp := mustSpec(t, `data: {file: w.csv, person: id, layout: wide, wide_columns: "wave{occasion}.{outcome}"}
+	sp := mustSpec(t, `data: {csv: w.csv, person: id, layout: wide, wide_columns: "wave{occasion}.{outcome}"}
 outcomes:
   - {name: mood, type: ordinal, categories: 3, lowest: 1}
   - {name: sick, type: binary, columns: {1: ill_may, 3: ill_july}}
@@ -292,7 +297,7 @@ func TestWideBadInput(t *testing.T) {
 			[]string{"w.csv:1:", `missing column "who"`}},
 		{"mapped column missing", strings.Replace(wideSpec, `labels: ["no", "yes"]}`, `labels: ["no", "yes"], columns: {1: ill_a}}`, 1), "who,mood_1,ill_b\nbo,2,no\n",
 			[]string{`missing column "ill_a"`, `outcome "sick", occasion 1`}},
-		{"column fits two outcomes", `data: {file: w.csv, person: who, layout: wide, wide_columns: "{outcome}{occasion}"}
+		{"column fits two outcomes", `data: {csv: w.csv, person: who, layout: wide, wide_columns: "{outcome}{occasion}"}
 outcomes: [{name: a, type: binary}, {name: a1, type: binary}]
 `, "who,a1,a11,a12\nx,0,1,0\n", []string{`column "a11" fits the pattern`, `outcome "a"`, `outcome "a1"`}},
 		{"row too short", wideSpec, "who,mood_1,sick_1\nbo,2\n", []string{"w.csv:2:", "expected 3 fields"}},

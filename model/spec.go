@@ -133,13 +133,23 @@ type SamplerSpec struct {
 
 // schema lists the keys allowed at each level of the model file.
 var schema = map[string][]string{
-	"":         {"data", "outcomes", "between", "within", "means", "sampler"},
-	"data":     {"file", "person", "occasion", "missing", "layout", "wide_columns"},
-	"outcomes": {"name", "type", "categories", "lowest", "labels", "empty_categories", "columns"},
-	"between":  {"random_intercepts"},
-	"within":   {"lags", "residual_correlation", "over_time", "first_occasion"},
-	"means":    {"over_time"},
-	"sampler":  {"chains", "warmup", "draws", "seed", "threshold_update", "until_converged", "max_draws", "path_moves", "checkpoint_every"},
+	"":                   {"data", "outcomes", "person_differences", "dynamics", "means", "sampler"},
+	"data":               {"csv", "person", "occasion", "missing_codes", "layout", "wide_columns"},
+	"outcomes":           {"name", "type", "categories", "lowest", "labels", "empty_categories", "columns"},
+	"person_differences": {"random_intercepts"},
+	"dynamics":           {"lags", "residual_correlation", "over_time", "first_occasion"},
+	"means":              {"over_time"},
+	"sampler":            {"chains", "warmup", "draws", "seed", "threshold_update", "until_converged", "max_draws", "path_moves", "checkpoint_every"},
+}
+
+// renamedKeys maps keys of earlier model files (section.key) to their
+// present names. They are not read as aliases; an old file gets a message
+// that names the new key.
+var renamedKeys = map[string]string{
+	".between":     "person_differences",
+	".within":      "dynamics",
+	"data.file":    "csv",
+	"data.missing": "missing_codes",
 }
 
 // ReadSpec reads and checks the model file at path. Every problem is an
@@ -179,8 +189,8 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 	}
 	if n, ok := top["data"]; ok {
 		m := r.mapping(n, "data")
-		if v, ok := m["file"]; ok {
-			sp.Data.File = r.str(v, "data.file")
+		if v, ok := m["csv"]; ok {
+			sp.Data.File = r.str(v, "data.csv")
 		}
 		if v, ok := m["person"]; ok {
 			sp.Data.Person = r.str(v, "data.person")
@@ -188,13 +198,13 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 		if v, ok := m["occasion"]; ok {
 			sp.Data.Occasion = r.str(v, "data.occasion")
 		}
-		if v, ok := m["missing"]; ok {
-			sp.Data.Missing = r.strList(v, "data.missing")
+		if v, ok := m["missing_codes"]; ok {
+			sp.Data.Missing = r.strList(v, "data.missing_codes")
 		}
 		if v, ok := m["layout"]; ok {
 			sp.Data.Wide = r.choice(v, "data.layout", "long", "wide") == "wide"
 		}
-		need := []string{"file", "person", "occasion"}
+		need := []string{"csv", "person", "occasion"}
 		if sp.Data.Wide {
 			need = need[:2]
 			if v, ok := m["occasion"]; ok {
@@ -216,7 +226,7 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 			}
 		}
 	} else {
-		p.addf(path, root.Line, "missing section \"data\" (file, person, occasion)")
+		p.addf(path, root.Line, "missing section \"data\" (csv, person, occasion)")
 	}
 	if n, ok := top["outcomes"]; ok {
 		if n.Kind != yaml.SequenceNode || len(n.Content) == 0 {
@@ -229,29 +239,29 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 	} else {
 		p.addf(path, root.Line, "missing section \"outcomes\"")
 	}
-	if n, ok := top["between"]; ok {
-		m := r.mapping(n, "between")
+	if n, ok := top["person_differences"]; ok {
+		m := r.mapping(n, "person_differences")
 		sp.Between.RandomIntercepts = true
 		if v, ok := m["random_intercepts"]; ok {
-			sp.Between.RandomIntercepts = r.boolean(v, "between.random_intercepts")
+			sp.Between.RandomIntercepts = r.boolean(v, "person_differences.random_intercepts")
 		}
 	} else {
 		sp.Between.RandomIntercepts = true
 	}
-	if n, ok := top["within"]; ok {
-		m := r.mapping(n, "within")
+	if n, ok := top["dynamics"]; ok {
+		m := r.mapping(n, "dynamics")
 		if v, ok := m["lags"]; ok {
-			sp.Within.Lags = Lags(r.choice(v, "within.lags", "none", "own", "cross"))
+			sp.Within.Lags = Lags(r.choice(v, "dynamics.lags", "none", "own", "cross"))
 		}
 		if v, ok := m["residual_correlation"]; ok {
-			sp.Within.ResidualCorrelation = r.boolean(v, "within.residual_correlation")
+			sp.Within.ResidualCorrelation = r.boolean(v, "dynamics.residual_correlation")
 			sp.Within.residualSet = true
 		}
 		if v, ok := m["over_time"]; ok {
-			sp.Within.PathsFree = r.choice(v, "within.over_time", "equal", "free") == "free"
+			sp.Within.PathsFree = r.choice(v, "dynamics.over_time", "equal", "free") == "free"
 		}
 		if v, ok := m["first_occasion"]; ok {
-			sp.Within.StationaryStart = r.choice(v, "within.first_occasion", "free", "stationary") == "stationary"
+			sp.Within.StationaryStart = r.choice(v, "dynamics.first_occasion", "free", "stationary") == "stationary"
 		}
 	}
 	if n, ok := top["means"]; ok {
@@ -357,7 +367,11 @@ func (r *reader) mapping(n *yaml.Node, section string) map[string]*yaml.Node {
 			if section != "" {
 				where = "unknown key in " + section
 			}
-			r.p.addf(r.file, k.Line, "%s: %q%s; allowed: %s", where, name, suggest(name, allowed), strings.Join(allowed, ", "))
+			hint := suggest(name, allowed)
+			if now, ok := renamedKeys[section+"."+name]; ok {
+				hint = fmt.Sprintf(" (this key is now called %q)", now)
+			}
+			r.p.addf(r.file, k.Line, "%s: %q%s; allowed: %s", where, name, hint, strings.Join(allowed, ", "))
 			continue
 		}
 		if _, dup := out[name]; dup {

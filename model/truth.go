@@ -44,7 +44,7 @@ var truthSchema = map[string][]string{
 	"random_intercepts": {"variances", "correlations"},
 	"innovations":       {"variances", "correlations"},
 	"first_occasion":    {"variances", "correlations"},
-	"correlations":      {"between", "value"},
+	"correlations":      {"outcomes", "value"},
 	"paths":             {"from", "to", "value"},
 }
 
@@ -97,16 +97,16 @@ func ReadTruth(path string, sp *Spec) (*TruthSpec, error) {
 		var pairs []Pair
 		if n, ok := m["correlations"]; ok {
 			if n.Kind != yaml.SequenceNode {
-				p.addf(path, n.Line, "%s.correlations: expected a list of {between: [a, b], value: r}", key)
+				p.addf(path, n.Line, "%s.correlations: expected a list of {outcomes: [a, b], value: r}", key)
 				return nil
 			}
 			for _, item := range n.Content {
 				im := r.mapping(item, "correlations")
 				pr := Pair{Line: item.Line}
-				if b, ok := im["between"]; ok {
-					names := r.strList(b, key+".correlations.between")
+				if b, ok := im["outcomes"]; ok {
+					names := r.strList(b, key+".correlations.outcomes")
 					if len(names) != 2 {
-						p.addf(path, b.Line, "%s.correlations.between: expected two outcome names", key)
+						p.addf(path, b.Line, "%s.correlations.outcomes: expected two outcome names", key)
 					} else {
 						pr.A, pr.B = r.outcome(names[0], b.Line, key), r.outcome(names[1], b.Line, key)
 					}

@@ -81,6 +81,20 @@ func TestSummaryShape(t *testing.T) {
 			t.Errorf("no %s parameter", k)
 		}
 	}
+	// Correlations name their pair in an outcomes list, not in outcome.
+	for _, p := range params {
+		e := p.(map[string]any)
+		if e["kind"] != "ri_correlation" && e["kind"] != "innovation_correlation" {
+			continue
+		}
+		pair, _ := e["outcomes"].([]any)
+		if len(pair) != 2 || pair[0] != "rested" || pair[1] != "headache" {
+			t.Errorf("%s: outcomes = %v, want [rested headache]", e["name"], e["outcomes"])
+		}
+		if _, ok := e["outcome"]; ok {
+			t.Errorf("%s: a correlation should not carry outcome", e["name"])
+		}
+	}
 	if first["level"].(float64) != 0.9 {
 		t.Errorf("level = %v, want 0.9", first["level"])
 	}
@@ -134,7 +148,7 @@ func TestManuscriptTables(t *testing.T) {
 			t.Fatalf("%s: %v", c.format, err)
 		}
 	}
-	for _, want := range []string{"| rested, threshold 1 |", "headache → rested, cross-lag", "90% interval", "random-intercept correlation", "ICC"} {
+	for _, want := range []string{"| rested, threshold 1 |", "headache → rested, cross-lag", "90% interval", "| rested & headache, random-intercept correlation |", "ICC"} {
 		if !strings.Contains(md.String(), want) {
 			t.Errorf("markdown lacks %q", want)
 		}

@@ -30,23 +30,25 @@ func (n Num) MarshalJSON() ([]byte, error) {
 
 // Entry is the summary of one parameter or derived quantity.
 type Entry struct {
-	Name     string `json:"name"`
-	Kind     string `json:"kind"`
-	Outcome  string `json:"outcome,omitempty"`
-	From     string `json:"from,omitempty"`
-	With     string `json:"with,omitempty"`
-	Occasion *int   `json:"occasion,omitempty"`
-	Index    int    `json:"index,omitempty"`
-	Mean     Num    `json:"mean"`
-	SD       Num    `json:"sd"`
-	Median   Num    `json:"median"`
-	Lower    Num    `json:"lower"`
-	Upper    Num    `json:"upper"`
-	Level    Num    `json:"level"`
-	Rhat     Num    `json:"rhat"`
-	ESSBulk  Num    `json:"ess_bulk"`
-	ESSTail  Num    `json:"ess_tail"`
-	MCSEMean Num    `json:"mcse_mean"`
+	Name    string `json:"name"`
+	Kind    string `json:"kind"`
+	Outcome string `json:"outcome,omitempty"`
+	From    string `json:"from,omitempty"`
+	// Outcomes names the pair of a correlation (ri_correlation,
+	// innovation_correlation, initial_correlation); Outcome is then empty.
+	Outcomes []string `json:"outcomes,omitempty"`
+	Occasion *int     `json:"occasion,omitempty"`
+	Index    int      `json:"index,omitempty"`
+	Mean     Num      `json:"mean"`
+	SD       Num      `json:"sd"`
+	Median   Num      `json:"median"`
+	Lower    Num      `json:"lower"`
+	Upper    Num      `json:"upper"`
+	Level    Num      `json:"level"`
+	Rhat     Num      `json:"rhat"`
+	ESSBulk  Num      `json:"ess_bulk"`
+	ESSTail  Num      `json:"ess_tail"`
+	MCSEMean Num      `json:"mcse_mean"`
 	// MCSELower and MCSEUpper are the Monte Carlo standard errors of the
 	// interval bounds.
 	MCSELower Num `json:"mcse_lower"`
@@ -203,7 +205,7 @@ func entries(ps []sampler.Param, draws [][]float64, kept []int, level float64) [
 			chains := make([][]float64, len(draws))
 			for p := w; p < n; p += workers {
 				par := ps[p]
-				e := Entry{Name: par.Name, Kind: par.Kind, Outcome: par.Outcome, From: par.From, With: par.With,
+				e := Entry{Name: par.Name, Kind: par.Kind, Outcome: par.Outcome, From: par.From, Outcomes: par.Pair,
 					Occasion: par.Occasion, Index: par.Index, table: par.Table, Level: Num(level)}
 				if minKept == 0 {
 					nan := Num(math.NaN())

@@ -42,7 +42,7 @@ type entryJSON struct {
 	Kind     string   `json:"kind"`
 	Outcome  string   `json:"outcome"`
 	From     string   `json:"from"`
-	With     string   `json:"with"`
+	Outcomes []string `json:"outcomes"`
 	Occasion *int     `json:"occasion"`
 	Index    int      `json:"index"`
 	Mean     *float64 `json:"mean"`
@@ -64,7 +64,7 @@ func num(p *float64) Num {
 }
 
 func (e entryJSON) entry() Entry {
-	return Entry{Name: e.Name, Kind: e.Kind, Outcome: e.Outcome, From: e.From, With: e.With, Occasion: e.Occasion, Index: e.Index,
+	return Entry{Name: e.Name, Kind: e.Kind, Outcome: e.Outcome, From: e.From, Outcomes: e.Outcomes, Occasion: e.Occasion, Index: e.Index,
 		Mean: num(e.Mean), SD: num(e.SD), Median: num(e.Median), Lower: num(e.Lower), Upper: num(e.Upper), Level: num(e.Level),
 		Rhat: num(e.Rhat), ESSBulk: num(e.ESSBulk), ESSTail: num(e.ESSTail)}
 }
@@ -130,7 +130,7 @@ func label(e *Entry) string {
 	case "ri_variance":
 		return fmt.Sprintf("%s, random-intercept variance", e.Outcome)
 	case "ri_correlation":
-		return fmt.Sprintf("%s with %s, random-intercept correlation", e.Outcome, e.With)
+		return fmt.Sprintf("%s, random-intercept correlation", pairLabel(e.Outcomes))
 	case "autoregression":
 		return fmt.Sprintf("%s, carry-over%s", e.Outcome, at)
 	case "crosslag":
@@ -138,7 +138,7 @@ func label(e *Entry) string {
 	case "innovation_variance":
 		return fmt.Sprintf("%s, innovation variance%s", e.Outcome, at)
 	case "innovation_correlation":
-		return fmt.Sprintf("%s with %s, residual correlation%s", e.Outcome, e.With, at)
+		return fmt.Sprintf("%s, residual correlation%s", pairLabel(e.Outcomes), at)
 	case "icc":
 		return fmt.Sprintf("%s, ICC%s", e.Outcome, at)
 	}
@@ -226,3 +226,6 @@ func tex(s string) string {
 }
 
 var nan = math.NaN()
+
+// pairLabel names a pair of outcomes in a table label ("rested & headache").
+func pairLabel(names []string) string { return strings.Join(names, " & ") }

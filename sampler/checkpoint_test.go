@@ -24,9 +24,9 @@ type checkpointCase struct {
 
 func checkpointCases() []checkpointCase {
 	ps := problems()
-	mixed := problem{yaml: `data: {file: x.csv, person: person, occasion: occasion}
+	mixed := problem{yaml: `data: {csv: x.csv, person: person, occasion: occasion}
 outcomes: [{name: a, type: ordinal, categories: 4, lowest: 0}, {name: b, type: continuous}]
-within: {lags: cross, over_time: free}
+dynamics: {lags: cross, over_time: free}
 means: {over_time: free}
 `, tr: Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Ordinal, model.Continuous}, Tau: [][]float64{{-0.7, 0, 0.7}, nil},
 		Psi: []float64{0.6, 0.2, 0.2, 0.5}, A: []float64{0.3, 0.1, 0.1, 0.3}, Sigma: []float64{1, 0.3, 0.3, 1}, Sigma1: []float64{1, 0.2, 0.2, 1}, Missing: 0.1}}

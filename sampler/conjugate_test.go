@@ -29,9 +29,9 @@ func TestConjugateMeanPosterior(t *testing.T) {
 		t.Fatal(err)
 	}
 	l := layoutFrom(t, `
-data: {file: x.csv, person: person, occasion: occasion}
+data: {csv: x.csv, person: person, occasion: occasion}
 outcomes: [{name: y, type: continuous}]
-within: {lags: own}
+dynamics: {lags: own}
 means: {over_time: equal}
 `, csv)
 	// Work on the standardized scale the sampler uses; known values are

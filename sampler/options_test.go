@@ -56,10 +56,10 @@ func TestEveryOptionCombination(t *testing.T) {
 					for _, paths := range []string{"equal", "free"} {
 						for _, means := range []string{"equal", "free"} {
 							for _, first := range []string{"free", "stationary"} {
-								yaml := fmt.Sprintf(`data: {file: x.csv, person: person, occasion: occasion}
+								yaml := fmt.Sprintf(`data: {csv: x.csv, person: person, occasion: occasion}
 outcomes: [%s]
-between: {random_intercepts: %v}
-within: {lags: %s, residual_correlation: %v, over_time: %s, first_occasion: %s}
+person_differences: {random_intercepts: %v}
+dynamics: {lags: %s, residual_correlation: %v, over_time: %s, first_occasion: %s}
 means: {over_time: %s}
 `, outs, ri, lags, rc, paths, first, means)
 								name := fmt.Sprintf("%s/ri=%v/lags=%s/rc=%v/paths=%s/means=%s/first=%s", mix.name, ri, lags, rc, paths, means, first)

@@ -12,11 +12,12 @@ import (
 // Param describes one reported quantity (a parameter or a derived one).
 // Fields that do not apply are empty (Occasion nil, Index 0).
 type Param struct {
-	Name     string
-	Kind     string
-	Outcome  string
-	From     string
-	With     string
+	Name    string
+	Kind    string
+	Outcome string
+	From    string
+	// Pair names the two outcomes of a correlation (Outcome is then empty).
+	Pair     []string
 	Occasion *int
 	Index    int
 	// Table marks quantities shown in the terminal table.
@@ -58,7 +59,7 @@ func (l *Layout) Params() []Param {
 		}
 		for a := 0; a < l.J; a++ {
 			for b := a + 1; b < l.J; b++ {
-				ps = append(ps, Param{Name: fmt.Sprintf("ri_correlation[%s,%s]", names[a], names[b]), Kind: "ri_correlation", Outcome: names[a], With: names[b], Table: true})
+				ps = append(ps, Param{Name: fmt.Sprintf("ri_correlation[%s,%s]", names[a], names[b]), Kind: "ri_correlation", Pair: []string{names[a], names[b]}, Table: true})
 			}
 		}
 	}
@@ -103,7 +104,7 @@ func (l *Layout) Params() []Param {
 		if g.Corr {
 			for a := 0; a < l.J; a++ {
 				for b := a + 1; b < l.J; b++ {
-					ps = append(ps, Param{Name: fmt.Sprintf("%s[%s,%s%s]", kindC, names[a], names[b], suffix), Kind: kindC, Outcome: names[a], With: names[b], Occasion: o, Table: true})
+					ps = append(ps, Param{Name: fmt.Sprintf("%s[%s,%s%s]", kindC, names[a], names[b], suffix), Kind: kindC, Pair: []string{names[a], names[b]}, Occasion: o, Table: true})
 				}
 			}
 		}

@@ -14,10 +14,10 @@ import (
 // same mean and variance of every latent response, within Monte Carlo error.
 func TestLatentPathBlockTargetsTruncatedNormal(t *testing.T) {
 	csv := "p,t,y\n1,1,2\n1,2,3\n1,3,NA\n1,4,1\n1,5,0\n1,6,2\n2,1,0\n2,2,1\n2,3,2\n2,4,3\n2,5,3\n2,6,3\n"
-	l := layoutFrom(t, `data: {file: x.csv, person: p, occasion: t}
+	l := layoutFrom(t, `data: {csv: x.csv, person: p, occasion: t}
 outcomes: [{name: y, type: ordinal, categories: 4, lowest: 0}]
-between: {random_intercepts: false}
-within: {lags: own}
+person_differences: {random_intercepts: false}
+dynamics: {lags: own}
 means: {over_time: equal}
 `, []byte(csv))
 	type moments struct{ mean, sd, mcse []float64 }

@@ -33,25 +33,25 @@ type problem struct {
 func problems() []problem {
 	return []problem{
 		{name: "D", n: 200, t: 60,
-			yaml: `data: {file: x.csv, person: person, occasion: occasion}
+			yaml: `data: {csv: x.csv, person: person, occasion: occasion}
 outcomes: [{name: y, type: ordinal, categories: 5, lowest: 0}]
-within: {lags: own, first_occasion: stationary}
+dynamics: {lags: own, first_occasion: stationary}
 means: {over_time: equal}
 `,
 			tr: Truth{Names: []string{"y"}, Types: []model.OutcomeType{model.Ordinal}, Tau: [][]float64{{-1.2, -0.4, 0.4, 1.2}},
 				Psi: []float64{0.5}, A: []float64{0.6}, Sigma: []float64{1}, Missing: 0.05}},
 		{name: "P", n: 2000, t: 6,
-			yaml: `data: {file: x.csv, person: person, occasion: occasion}
+			yaml: `data: {csv: x.csv, person: person, occasion: occasion}
 outcomes: [{name: a, type: binary}, {name: b, type: binary}]
-within: {lags: cross}
+dynamics: {lags: cross}
 means: {over_time: free}
 `,
 			tr: Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Binary, model.Binary}, Tau: [][]float64{{0.3}, {-0.2}},
 				Psi: []float64{0.8, 0.3, 0.3, 0.6}, A: []float64{0.35, 0.15, 0.1, 0.3}, Sigma: []float64{1, 0.3, 0.3, 1}, Sigma1: []float64{1, 0.3, 0.3, 1}, Missing: 0.05}},
 		{name: "L", n: 100000, t: 10, large: true,
-			yaml: `data: {file: x.csv, person: person, occasion: occasion}
+			yaml: `data: {csv: x.csv, person: person, occasion: occasion}
 outcomes: [{name: a, type: ordinal, categories: 5, lowest: 0}, {name: b, type: ordinal, categories: 4, lowest: 0}, {name: c, type: ordinal, categories: 3, lowest: 0}]
-within: {lags: cross}
+dynamics: {lags: cross}
 means: {over_time: free}
 `,
 			tr: Truth{Names: []string{"a", "b", "c"}, Types: []model.OutcomeType{model.Ordinal, model.Ordinal, model.Ordinal},

@@ -73,9 +73,9 @@ func TestRecovery(t *testing.T) {
 		{
 			name: "binary cross-lagged",
 			yaml: `
-data: {file: x.csv, person: person, occasion: occasion}
+data: {csv: x.csv, person: person, occasion: occasion}
 outcomes: [{name: a, type: binary}, {name: b, type: binary}]
-within: {lags: cross}
+dynamics: {lags: cross}
 means: {over_time: equal}
 `,
 			tr: Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Binary, model.Binary},
@@ -86,9 +86,9 @@ means: {over_time: equal}
 		{
 			name: "ordinal cross-lagged, means free over time",
 			yaml: `
-data: {file: x.csv, person: person, occasion: occasion}
+data: {csv: x.csv, person: person, occasion: occasion}
 outcomes: [{name: a, type: ordinal, categories: 4, lowest: 0}, {name: b, type: ordinal, categories: 5, lowest: 0}]
-within: {lags: cross}
+dynamics: {lags: cross}
 means: {over_time: free}
 `,
 			tr: Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Ordinal, model.Ordinal},
@@ -101,9 +101,9 @@ means: {over_time: free}
 		{
 			name: "mixed ordinal and continuous, stationary start",
 			yaml: `
-data: {file: x.csv, person: person, occasion: occasion}
+data: {csv: x.csv, person: person, occasion: occasion}
 outcomes: [{name: mood, type: ordinal, categories: 5, lowest: 0}, {name: steps, type: continuous}]
-within: {lags: cross, first_occasion: stationary}
+dynamics: {lags: cross, first_occasion: stationary}
 means: {over_time: equal}
 `,
 			tr: Truth{Names: []string{"mood", "steps"}, Types: []model.OutcomeType{model.Ordinal, model.Continuous},

@@ -56,9 +56,9 @@ var sbcCases = []sbcCase{
 	{
 		name: "ordinal K=4 random-intercept AR(1)",
 		yaml: `
-data: {file: x.csv, person: person, occasion: occasion}
+data: {csv: x.csv, person: person, occasion: occasion}
 outcomes: [{name: y, type: ordinal, categories: 4, lowest: 0}]
-within: {lags: own}
+dynamics: {lags: own}
 means: {over_time: equal}
 `,
 		persons: 40, times: 6,
@@ -75,9 +75,9 @@ means: {over_time: equal}
 	{
 		name: "bivariate binary cross-lagged with random intercepts",
 		yaml: `
-data: {file: x.csv, person: person, occasion: occasion}
+data: {csv: x.csv, person: person, occasion: occasion}
 outcomes: [{name: a, type: binary}, {name: b, type: binary}]
-within: {lags: cross, residual_correlation: true}
+dynamics: {lags: cross, residual_correlation: true}
 means: {over_time: equal}
 `,
 		persons: 60, times: 5,
@@ -100,9 +100,9 @@ means: {over_time: equal}
 	{
 		name: "ordinal K=3 random-intercept AR(1), stationary start",
 		yaml: `
-data: {file: x.csv, person: person, occasion: occasion}
+data: {csv: x.csv, person: person, occasion: occasion}
 outcomes: [{name: y, type: ordinal, categories: 3, lowest: 0}]
-within: {lags: own, first_occasion: stationary}
+dynamics: {lags: own, first_occasion: stationary}
 means: {over_time: equal}
 `,
 		persons: 40, times: 8,

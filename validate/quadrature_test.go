@@ -98,10 +98,10 @@ func crossSection(counts []int, labels []string) string {
 func TestBinaryThresholdByQuadrature(t *testing.T) {
 	n0, n1 := 37, 13
 	csv := crossSection([]int{n0, n1}, []string{"0", "1"})
-	got := fitDraws(t, `data: {file: q.csv, person: id, occasion: wave}
+	got := fitDraws(t, `data: {csv: q.csv, person: id, occasion: wave}
 outcomes: [{name: y, type: binary}]
-between: {random_intercepts: false}
-within: {lags: none}
+person_differences: {random_intercepts: false}
+dynamics: {lags: none}
 `, csv, 4, 500, 5000)
 	logf := func(tau float64) float64 {
 		return -tau*tau/50 + float64(n0)*math.Log(stdNormal.CDF(tau)) + float64(n1)*math.Log(stdNormal.Survival(tau))
@@ -117,10 +117,10 @@ within: {lags: none}
 func TestOrdinalThresholdsByQuadrature(t *testing.T) {
 	n := []int{14, 22, 9}
 	csv := crossSection(n, []string{"1", "2", "3"})
-	got := fitDraws(t, `data: {file: q.csv, person: id, occasion: wave}
+	got := fitDraws(t, `data: {csv: q.csv, person: id, occasion: wave}
 outcomes: [{name: y, type: ordinal, categories: 3, lowest: 1}]
-between: {random_intercepts: false}
-within: {lags: none}
+person_differences: {random_intercepts: false}
+dynamics: {lags: none}
 `, csv, 4, 500, 5000)
 	const g = 800
 	lo, hi := -3.0, 3.0
@@ -174,10 +174,10 @@ func TestRandomInterceptProbitByQuadrature(t *testing.T) {
 			fmt.Fprintf(&b, "%d,1,%d\n%d,2,%d\n", id, p>>1, id, p&1)
 		}
 	}
-	got := fitDraws(t, `data: {file: q.csv, person: id, occasion: wave}
+	got := fitDraws(t, `data: {csv: q.csv, person: id, occasion: wave}
 outcomes: [{name: y, type: binary}]
-between: {random_intercepts: true}
-within: {lags: none}
+person_differences: {random_intercepts: true}
+dynamics: {lags: none}
 means: {over_time: equal}
 `, b.String(), 4, 1000, 6000)
 	// Gauss-Hermite rule for integral f(x) exp(-x^2) dx.

@@ -48,16 +48,16 @@ func TestOutsideReferences(t *testing.T) {
 		name, model string
 		names       map[string]string // reference key -> parameter name
 	}{
-		{"ohio", `data: {file: ohio.csv, person: id, occasion: occasion}
+		{"ohio", `data: {csv: ohio.csv, person: id, occasion: occasion}
 outcomes: [{name: resp, type: binary}]
-between: {random_intercepts: true}
-within: {lags: own, first_occasion: stationary}
+person_differences: {random_intercepts: true}
+dynamics: {lags: own, first_occasion: stationary}
 means: {over_time: equal}
 `, map[string]string{"threshold_1": "threshold[resp,1]", "ri_variance": "ri_variance[resp]", "autoregression": "autoregression[resp]"}},
-		{"koch", `data: {file: koch.csv, person: id, occasion: occasion}
+		{"koch", `data: {csv: koch.csv, person: id, occasion: occasion}
 outcomes: [{name: y, type: ordinal, categories: 3, lowest: 1}]
-between: {random_intercepts: true}
-within: {lags: own, first_occasion: stationary}
+person_differences: {random_intercepts: true}
+dynamics: {lags: own, first_occasion: stationary}
 means: {over_time: equal}
 `, map[string]string{"threshold_1": "threshold[y,1]", "threshold_2": "threshold[y,2]", "ri_variance": "ri_variance[y]", "autoregression": "autoregression[y]"}},
 	}

@@ -22,7 +22,7 @@ import (
 // file contents), the panel size, the share of missing cells.
 type Scenario struct {
 	Name    string
-	Model   string // YAML; data.file is ignored
+	Model   string // YAML; data.csv is ignored
 	Persons int
 	Times   int
 	Missing float64

@@ -4,10 +4,10 @@ import "fmt"
 
 // base builds a model file for calibration scenarios.
 func base(outcomes, between, within, means string) string {
-	return fmt.Sprintf(`data: {file: sim.csv, person: person, occasion: occasion}
+	return fmt.Sprintf(`data: {csv: sim.csv, person: person, occasion: occasion}
 outcomes: %s
-between: {%s}
-within: {%s}
+person_differences: {%s}
+dynamics: {%s}
 means: {%s}
 `, outcomes, between, within, means)
 }

@@ -11,7 +11,7 @@ import (
 )
 
 const goodModel = `data:
-  file: data.csv
+  csv: data.csv
   person: id
   occasion: wave
 outcomes:
@@ -21,7 +21,7 @@ outcomes:
     lowest: 1
   - name: pain
     type: binary
-within:
+dynamics:
   lags: cross
 means:
   over_time: equal
@@ -133,7 +133,7 @@ func TestBadInput(t *testing.T) {
 		{"no rows", goodModel, "id,wave,mood,pain\n", nil,
 			[]string{"data.csv", "no data rows"}},
 		{"misspelled key", strings.Replace(goodModel, "lags: cross", "lag: cross", 1), data, nil,
-			[]string{"model.yaml:13:", `unknown key in within: "lag"`, `did you mean "lags"`}},
+			[]string{"model.yaml:13:", `unknown key in dynamics: "lag"`, `did you mean "lags"`}},
 		{"unknown top-level key", goodModel + "priorz: {}\n", data, nil,
 			[]string{"model.yaml:21:", `"priorz"`}},
 		{"data file missing", strings.Replace(goodModel, "data.csv", "nothere.csv", 1), data, nil,
@@ -141,9 +141,9 @@ func TestBadInput(t *testing.T) {
 		{"model file missing", "", data, []string{"fit", "nomodel.yaml"},
 			[]string{"nomodel.yaml", "does not exist"}},
 		{"unidentified: stationary with free paths", strings.Replace(goodModel, "lags: cross", "lags: cross\n  over_time: free\n  first_occasion: stationary", 1), data, nil,
-			[]string{"model.yaml", "first_occasion: stationary needs within.over_time: equal"}},
+			[]string{"model.yaml", "first_occasion: stationary needs dynamics.over_time: equal"}},
 		{"unidentified: cross-lags with one outcome", strings.Replace(goodModel, "  - name: pain\n    type: binary\n", "", 1), data, nil,
-			[]string{"within.lags: cross needs at least two outcomes"}},
+			[]string{"dynamics.lags: cross needs at least two outcomes"}},
 		{"bad flag value", goodModel, data, []string{"--format", "xml"},
 			[]string{"--format", "xml"}},
 		{"bad level", goodModel, data, []string{"--level", "1.5"},
@@ -188,13 +188,13 @@ func TestBadInput(t *testing.T) {
 const truthText = `thresholds: {mood: [-0.5, 0.6], pain: [0.3]}
 random_intercepts:
   variances: {mood: 0.8, pain: 0.6}
-  correlations: [{between: [mood, pain], value: 0.3}]
+  correlations: [{outcomes: [mood, pain], value: 0.3}]
 paths:
   - {from: mood, to: mood, value: 0.4}
   - {from: pain, to: pain, value: 0.3}
   - {from: mood, to: pain, value: 0.2}
 innovations:
-  correlations: [{between: [mood, pain], value: 0.25}]
+  correlations: [{outcomes: [mood, pain], value: 0.25}]
 missing: 0.05
 `
 

@@ -20,10 +20,10 @@ truth file:
   thresholds:        {mood: [-1, 0, 1, 2], pain: [0.8]}
   means:             {steps: 50}            # one value, or one per occasion
   random_intercepts: {variances: {mood: 0.6, pain: 0.5},
-                      correlations: [{between: [mood, pain], value: -0.3}]}
+                      correlations: [{outcomes: [mood, pain], value: -0.3}]}
   paths:             [{from: mood, to: mood, value: 0.4}, {from: mood, to: pain, value: -0.1}]
-  innovations:       {correlations: [{between: [mood, pain], value: 0.2}]}
-  first_occasion:    {correlations: [{between: [mood, pain], value: 0.2}]}
+  innovations:       {correlations: [{outcomes: [mood, pain], value: 0.2}]}
+  first_occasion:    {correlations: [{outcomes: [mood, pain], value: 0.2}]}
   missing:           0.05                   # share of cells left empty
 
 Latent variances of categorical outcomes are 1 (identification); continuous
