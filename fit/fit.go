@@ -32,7 +32,8 @@ type Options struct {
 	DataRaw   []byte
 
 	OutDir                string // "" writes no files
-	Chains, Warmup, Draws int    // 0: from the model file
+	Chains, Warmup, Draws int    // 0: from the model file (Warmup: unless WarmupSet)
+	WarmupSet             bool   // Warmup was given, even as 0
 	Seed                  uint64
 	SeedSet               bool
 	Level                 float64 // central interval level; 0 means 0.95
@@ -108,7 +109,7 @@ func Fit(ctx context.Context, o Options) (*Outcome, error) {
 	if o.Chains > 0 {
 		opt.Chains = o.Chains
 	}
-	if o.Warmup > 0 {
+	if o.Warmup > 0 || o.WarmupSet {
 		opt.Warmup = o.Warmup
 	}
 	if o.Draws > 0 {

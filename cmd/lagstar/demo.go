@@ -37,7 +37,7 @@ wristpain fits the invented yearly wrist-pain panel of a bakery chain's
 staff, stored in wide layout. Nothing is written unless --out is given.`,
 		Args: args(cobra.NoArgs),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			if err := o.validate(); err != nil {
+			if err := o.validate(cmd); err != nil {
 				return err
 			}
 			ex, ok := demoExamples[example]

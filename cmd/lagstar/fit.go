@@ -46,7 +46,7 @@ the same seed would have given.`,
 		Example: "  lagstar fit diary.yaml --out diary-fit --seed 7\n  lagstar fit --resume diary-fit",
 		Args:    args(cobra.MaximumNArgs(1)),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			if err := o.validate(); err != nil {
+			if err := o.validate(cmd); err != nil {
 				return err
 			}
 			if resume != "" {
@@ -98,24 +98,28 @@ func (o *fitOptions) bind(cmd *cobra.Command) {
 // fitOptions maps the sampler flags shared by fit and demo onto fit.Options.
 func (o *fitOptions) fitOptions(cmd *cobra.Command) fit.Options {
 	f := cmd.Flags()
-	return fit.Options{Chains: o.chains, Warmup: o.warmup, Draws: o.draws, Seed: o.seed, SeedSet: f.Changed("seed"), Level: o.level,
+	return fit.Options{Chains: o.chains, Warmup: o.warmup, WarmupSet: f.Changed("warmup"), Draws: o.draws, Seed: o.seed, SeedSet: f.Changed("seed"), Level: o.level,
 		UntilConverged: o.untilConverged, MaxDraws: o.maxDraws,
 		CheckpointEvery: o.checkpointEvery, CheckpointSet: f.Changed("checkpoint-every")}
 }
 
-func (o *fitOptions) validate() error {
+// validate checks the flags that were given; a flag left out takes the
+// model file's value, but a given 0 is a value like any other (0 chains
+// or 0 draws are refused, not read as "the default").
+func (o *fitOptions) validate(cmd *cobra.Command) error {
+	set := cmd.Flags().Changed
 	switch {
-	case o.chains < 0 || o.chains > 64:
-		return &usageError{fmt.Errorf("--chains: expected 1 to 64, got %d", o.chains)}
+	case set("chains") && (o.chains < 1 || o.chains > 64):
+		return &usageError{fmt.Errorf("--chains: expected a whole number from 1 to 64, got %d", o.chains)}
 	case o.warmup < 0:
 		return &usageError{fmt.Errorf("--warmup: expected a whole number >= 0, got %d", o.warmup)}
-	case o.draws < 0:
+	case set("draws") && o.draws < 1:
 		return &usageError{fmt.Errorf("--draws: expected a whole number >= 1, got %d", o.draws)}
 	case !(o.level > 0 && o.level < 1):
 		return &usageError{fmt.Errorf("--level: expected a number between 0 and 1, got %g", o.level)}
 	case o.checkpointEvery < 0:
 		return &usageError{fmt.Errorf("--checkpoint-every: expected a whole number >= 0, got %d", o.checkpointEvery)}
-	case o.maxDraws < 0:
+	case set("max-draws") && o.maxDraws < 1:
 		return &usageError{fmt.Errorf("--max-draws: expected a whole number >= 1, got %d", o.maxDraws)}
 	case o.format != "text" && o.format != "json":
 		return &usageError{fmt.Errorf("--format: expected text or json, got %q", o.format)}

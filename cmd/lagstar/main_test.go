@@ -107,6 +107,15 @@ func TestFitWritesOutputs(t *testing.T) {
 	if code != 0 || !strings.HasPrefix(stdout, "{") {
 		t.Errorf("--format json: exit %d, output starts %q", code, stdout[:min(20, len(stdout))])
 	}
+	// --warmup 0 means no warm-up, not the model file's 1000.
+	warm := filepath.Join(t.TempDir(), "warm")
+	if code, _, stderr := runCLI("fit", mp, "--out", warm, "--quiet", "--warmup", "0", "--draws", "10"); code != 0 {
+		t.Fatalf("--warmup 0: exit %d: %s", code, stderr)
+	}
+	var rec struct{ Warmup int }
+	if raw, err := os.ReadFile(filepath.Join(warm, "run.json")); err != nil || json.Unmarshal(raw, &rec) != nil || rec.Warmup != 0 {
+		t.Errorf("--warmup 0: run.json warmup = %d (err %v), want 0", rec.Warmup, err)
+	}
 }
 
 // TestBadInput checks that each bad input exits with status 2, names the
@@ -159,6 +168,13 @@ func TestBadInput(t *testing.T) {
 			[]string{"data.csv:3:", `outcome "mood" (column "mood_2")`, "category 9 outside 1..3"}},
 		{"bad checkpoint interval", goodModel, data, []string{"--checkpoint-every", "-5"},
 			[]string{"--checkpoint-every"}},
+		// A given 0 is a value, not "the default".
+		{"zero draws", goodModel, data, []string{"--draws", "0"},
+			[]string{"--draws: expected a whole number >= 1, got 0"}},
+		{"zero chains", goodModel, data, []string{"--chains", "0"},
+			[]string{"--chains: expected a whole number from 1 to 64, got 0"}},
+		{"zero max draws", goodModel, data, []string{"--until-converged", "--max-draws", "0"},
+			[]string{"--max-draws: expected a whole number >= 1, got 0"}},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
