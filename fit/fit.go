@@ -46,7 +46,10 @@ type Options struct {
 	// sampler.checkpoint_every: sweeps between chain checkpoints.
 	CheckpointEvery int
 	CheckpointSet   bool
-	Progress        func(chain, chains, done, total int)
+	// Overwrite lets a fit replace the lagstar run already in OutDir
+	// (finished or not); without it such a folder is refused.
+	Overwrite bool
+	Progress  func(chain, chains, done, total int)
 }
 
 // Outcome is what a fit produced.
@@ -130,6 +133,11 @@ func Fit(ctx context.Context, o Options) (*Outcome, error) {
 		j.maxDraws = o.MaxDraws
 	}
 	if j.dir != "" {
+		// A folder that is a file or holds files of the user's is refused
+		// before anything (even the lock) is written there.
+		if _, _, err := inspectOut(j.dir); err != nil {
+			return nil, err
+		}
 		if err := os.MkdirAll(j.dir, 0o755); err != nil {
 			return nil, fmt.Errorf("create output folder: %w", err)
 		}
@@ -138,8 +146,19 @@ func Fit(ctx context.Context, o Options) (*Outcome, error) {
 			return nil, err
 		}
 		defer unlock()
-		if interruptedRun(j.dir) {
-			return nil, model.Inputf(j.dir, 0, "holds an unfinished run; finish it with lagstar fit --resume %s, or choose another --out folder (or remove this one)", j.dir)
+		state, rec, err := inspectOut(j.dir)
+		if err != nil {
+			return nil, err
+		}
+		switch {
+		case state == unfinished && !o.Overwrite:
+			return nil, model.Inputf(j.dir, 0, "holds an unfinished run; finish it with lagstar fit --resume %s, choose another --out folder, or give --overwrite to discard it", j.dir)
+		case state == finished && !o.Overwrite:
+			return nil, model.Inputf(j.dir, 0, "holds a finished run (status %s, started %s); give --overwrite to replace it (all its files and figures are removed first), or choose another --out folder", rec.Status, rec.Started.Format("2006-01-02 15:04"))
+		case state != noRun:
+			if err := clearRun(j.dir); err != nil {
+				return nil, fmt.Errorf("removing the earlier run in %s: %w", j.dir, err)
+			}
 		}
 		if err := report.BeginRun(j.dir, l.Panel.Raw, j.record(nil)); err != nil {
 			return nil, fmt.Errorf("writing %s: %w", j.dir, err)

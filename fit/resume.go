@@ -2,7 +2,6 @@ package fit
 
 import (
 	"context"
-	"encoding/json"
 	"errors"
 	"fmt"
 	"os"
@@ -22,13 +21,11 @@ func checkpointFile(dir string, chain int) string {
 	return filepath.Join(dir, checkpointDir, fmt.Sprintf("chain-%d.ckpt", chain+1))
 }
 
-// prepareCheckpoints empties the job's checkpoint folder and makes the
-// chains write their checkpoints there, each atomically.
+// prepareCheckpoints makes the job's checkpoint folder (an earlier run's
+// checkpoints were removed by clearRun) and makes the chains write their
+// checkpoints there, each atomically.
 func (j *job) prepareCheckpoints() error {
 	cd := filepath.Join(j.dir, checkpointDir)
-	if err := os.RemoveAll(cd); err != nil {
-		return err
-	}
 	if err := os.MkdirAll(cd, 0o755); err != nil {
 		return err
 	}
@@ -36,17 +33,6 @@ func (j *job) prepareCheckpoints() error {
 		return report.WriteAtomic(checkpointFile(j.dir, chain), data)
 	}
 	return nil
-}
-
-// interruptedRun reports whether dir holds a run that did not finish.
-func interruptedRun(dir string) bool {
-	raw, err := os.ReadFile(filepath.Join(dir, "run.json"))
-	if err != nil {
-		return false
-	}
-	var rec report.RunRecord
-	return json.Unmarshal(raw, &rec) == nil && rec.Program == report.Program &&
-		(rec.Status == report.StatusRunning || rec.Status == report.StatusInterrupted)
 }
 
 // ResumeOptions says which unfinished run to continue.

@@ -25,6 +25,7 @@ type fitOptions struct {
 	untilConverged        bool
 	maxDraws              int
 	checkpointEvery       int
+	overwrite             bool
 	intro                 string // printed before the table (demo)
 }
 
@@ -53,7 +54,7 @@ the same seed would have given.`,
 				if len(args) > 0 {
 					return &usageError{fmt.Errorf("--resume takes its settings from the run folder; give no model file (got %q)", args[0])}
 				}
-				for _, name := range []string{"out", "chains", "warmup", "draws", "seed", "level", "until-converged", "max-draws", "checkpoint-every"} {
+				for _, name := range []string{"out", "chains", "warmup", "draws", "seed", "level", "until-converged", "max-draws", "checkpoint-every", "overwrite"} {
 					if cmd.Flags().Changed(name) {
 						return &usageError{fmt.Errorf("--%s cannot be used with --resume: the run continues with the settings in %s/run.json", name, resume)}
 					}
@@ -93,6 +94,7 @@ func (o *fitOptions) bind(cmd *cobra.Command) {
 	f.BoolVar(&o.quiet, "quiet", false, "print no progress")
 	f.BoolVar(&o.untilConverged, "until-converged", false, "extend sampling in rounds until R-hat <= 1.01 and bulk/tail ESS >= 400 for every parameter")
 	f.IntVar(&o.maxDraws, "max-draws", 0, "cap on draws per chain for --until-converged (default from the model file, else 20000)")
+	f.BoolVar(&o.overwrite, "overwrite", false, "replace the lagstar run already in the --out folder (its files and figures are removed first)")
 }
 
 // fitOptions maps the sampler flags shared by fit and demo onto fit.Options.
@@ -100,7 +102,7 @@ func (o *fitOptions) fitOptions(cmd *cobra.Command) fit.Options {
 	f := cmd.Flags()
 	return fit.Options{Chains: o.chains, Warmup: o.warmup, WarmupSet: f.Changed("warmup"), Draws: o.draws, Seed: o.seed, SeedSet: f.Changed("seed"), Level: o.level,
 		UntilConverged: o.untilConverged, MaxDraws: o.maxDraws,
-		CheckpointEvery: o.checkpointEvery, CheckpointSet: f.Changed("checkpoint-every")}
+		CheckpointEvery: o.checkpointEvery, CheckpointSet: f.Changed("checkpoint-every"), Overwrite: o.overwrite}
 }
 
 // validate checks the flags that were given; a flag left out takes the

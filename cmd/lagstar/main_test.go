@@ -6,6 +6,7 @@ import (
 	"encoding/json"
 	"os"
 	"path/filepath"
+	"reflect"
 	"strings"
 	"testing"
 )
@@ -103,7 +104,7 @@ func TestFitWritesOutputs(t *testing.T) {
 			t.Errorf("missing %s: %v", f, err)
 		}
 	}
-	code, stdout, _ = runCLI("fit", mp, "--out", out, "--quiet", "--format", "json", "--draws", "10")
+	code, stdout, _ = runCLI("fit", mp, "--out", out, "--quiet", "--format", "json", "--draws", "10", "--overwrite")
 	if code != 0 || !strings.HasPrefix(stdout, "{") {
 		t.Errorf("--format json: exit %d, output starts %q", code, stdout[:min(20, len(stdout))])
 	}
@@ -388,5 +389,78 @@ func TestDemoExamples(t *testing.T) {
 	}
 	if code, _, stderr := runCLI("demo", "--example", "nope"); code != 2 || !strings.Contains(stderr, "--example") {
 		t.Errorf("unknown example: exit %d, %q", code, stderr)
+	}
+}
+
+// TestOutFolderSafety: a fit never writes into a folder of the user's, a
+// finished run is replaced only with --overwrite, and then none of its
+// files (figures included) outlive it, while files of the user's in the
+// folder stay as they were.
+func TestOutFolderSafety(t *testing.T) {
+	dir, mp := setup(t, goodModel, goodData())
+	snapshot := func(d string) map[string]string {
+		got := map[string]string{}
+		filepath.WalkDir(d, func(p string, e os.DirEntry, err error) error {
+			if err == nil && !e.IsDir() {
+				raw, _ := os.ReadFile(p)
+				got[p] = string(raw)
+			}
+			return nil
+		})
+		return got
+	}
+
+	user := filepath.Join(dir, "thesis")
+	os.MkdirAll(filepath.Join(user, "checkpoints"), 0o755)
+	os.WriteFile(filepath.Join(user, "chapter1.tex"), []byte("my chapter"), 0o644)
+	os.WriteFile(filepath.Join(user, "checkpoints", "notes.txt"), []byte("keep"), 0o644)
+	os.WriteFile(filepath.Join(user, "report.html"), []byte("my page"), 0o644)
+	before := snapshot(user)
+	for _, extra := range [][]string{nil, {"--overwrite"}} {
+		code, _, stderr := runCLI(append([]string{"fit", mp, "--out", user, "--quiet", "--draws", "10"}, extra...)...)
+		if code != 2 || !strings.Contains(stderr, "not a lagstar run") || !strings.Contains(stderr, "chapter1.tex") {
+			t.Errorf("fit into a folder of user files %v: exit %d, stderr %q; want 2 naming the files", extra, code, stderr)
+		}
+	}
+	if after := snapshot(user); !reflect.DeepEqual(before, after) {
+		t.Errorf("a folder of user files was modified:\nbefore %v\nafter  %v", before, after)
+	}
+	if _, err := os.Stat(filepath.Join(user, ".lagstar.lock")); err == nil {
+		t.Error("a lock was left in a folder of user files")
+	}
+
+	file := filepath.Join(dir, "notes.txt")
+	os.WriteFile(file, []byte("x"), 0o644)
+	if code, _, stderr := runCLI("fit", mp, "--out", file, "--quiet"); code != 2 || !strings.Contains(stderr, "names a file") {
+		t.Errorf("--out at a file: exit %d, stderr %q", code, stderr)
+	}
+
+	out := filepath.Join(dir, "run")
+	if code, _, stderr := runCLI("fit", mp, "--out", out, "--quiet", "--draws", "10"); code != 0 {
+		t.Fatalf("first fit: exit %d: %s", code, stderr)
+	}
+	stale := filepath.Join(out, "check_old.png")
+	os.WriteFile(stale, []byte("png"), 0o644)
+	mine := filepath.Join(out, "my-notes.md")
+	os.WriteFile(mine, []byte("mine"), 0o644)
+	first, _ := os.ReadFile(filepath.Join(out, "draws.csv"))
+	code, _, stderr := runCLI("fit", mp, "--out", out, "--quiet", "--draws", "10", "--seed", "99")
+	if code != 2 || !strings.Contains(stderr, "holds a finished run") || !strings.Contains(stderr, "--overwrite") {
+		t.Errorf("second fit without --overwrite: exit %d, stderr %q; want 2 and a hint at --overwrite", code, stderr)
+	}
+	if again, _ := os.ReadFile(filepath.Join(out, "draws.csv")); string(again) != string(first) {
+		t.Error("a refused fit changed the earlier run's draws")
+	}
+	if code, _, stderr := runCLI("fit", mp, "--out", out, "--quiet", "--draws", "10", "--seed", "99", "--overwrite"); code != 0 {
+		t.Fatalf("--overwrite: exit %d: %s", code, stderr)
+	}
+	if _, err := os.Stat(stale); err == nil {
+		t.Error("--overwrite left the old run's check_old.png")
+	}
+	if raw, err := os.ReadFile(mine); err != nil || string(raw) != "mine" {
+		t.Errorf("--overwrite removed or changed a file of the user's (err %v)", err)
+	}
+	if again, _ := os.ReadFile(filepath.Join(out, "draws.csv")); string(again) == string(first) {
+		t.Error("--overwrite did not write the new run")
 	}
 }
