@@ -37,6 +37,10 @@ type Result struct {
 	Draws int    `json:"draws"`
 	Seed  uint64 `json:"seed"`
 	Stats []Stat `json:"stats"`
+	// Unconverged names the parameters of the checked run that failed the
+	// convergence rule: replicates from such draws check a posterior that
+	// has not been found yet.
+	Unconverged []string `json:"unconverged_parameters"`
 }
 
 // Extreme reports whether a p-value lies outside (0.05, 0.95).

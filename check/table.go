@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"io"
 	"strings"
+
+	"github.com/lagstar/lagstar/diagnostics"
 )
 
 var kindOrder = []struct{ kind, title string }{
@@ -28,6 +30,9 @@ var key = map[string]bool{"transition": true, "lag2_transition": true, "person_t
 func WriteTable(w io.Writer, r *Result) error {
 	var b strings.Builder
 	fmt.Fprintf(&b, "Posterior predictive checks: %d statistics, %d replicated data sets (new random intercepts and within paths)\n\n", len(r.Stats), r.Draws)
+	if note := diagnostics.UnconvergedNote(r.Unconverged); note != "" {
+		fmt.Fprintf(&b, "Warning: the checked run is %s\n\n", strings.Replace(note, "Do not report these results", "Its predictive checks describe draws that have not settled", 1))
+	}
 	fmt.Fprintf(&b, "  %-40s %10s %22s\n", "statistic", "checked", "p outside (0.05,0.95)")
 	for _, k := range kindOrder {
 		n, ext := 0, 0

@@ -8,6 +8,8 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/lagstar/lagstar/diagnostics"
+
 	"gonum.org/v1/gonum/stat"
 )
 
@@ -17,25 +19,31 @@ type ModelFit struct {
 	Name  string
 	LL    [][]float64
 	GHKSE float64 // median relative Monte Carlo error of the GHK averages
+	// Unconverged names the model's parameters that failed the
+	// convergence rule in its fit.
+	Unconverged []string
 }
 
 // ModelResult summarizes one model's predictive accuracy.
 type ModelResult struct {
-	Name       string  `json:"name"`
-	ELPDLoo    float64 `json:"elpd_loo"`
-	SELoo      float64 `json:"se_elpd_loo"`
-	PLoo       float64 `json:"p_loo"`
-	ELPDWaic   float64 `json:"elpd_waic"`
-	SEWaic     float64 `json:"se_elpd_waic"`
-	DiffLoo    float64 `json:"elpd_diff"`
-	SEDiff     float64 `json:"se_diff"`
-	MaxK       jsonNum `json:"max_pareto_k"` // +Inf (null) when too few draws to fit the tail
-	HighK      int     `json:"persons_k_above_0_7"`
-	GHKRelSE   float64 `json:"ghk_relative_se"`
-	Persons    int     `json:"persons"`
-	Draws      int     `json:"draws"`
-	pointwise  []float64
-	pointwiseW []float64
+	Name     string  `json:"name"`
+	ELPDLoo  float64 `json:"elpd_loo"`
+	SELoo    float64 `json:"se_elpd_loo"`
+	PLoo     float64 `json:"p_loo"`
+	ELPDWaic float64 `json:"elpd_waic"`
+	SEWaic   float64 `json:"se_elpd_waic"`
+	DiffLoo  float64 `json:"elpd_diff"`
+	SEDiff   float64 `json:"se_diff"`
+	MaxK     jsonNum `json:"max_pareto_k"` // +Inf (null) when too few draws to fit the tail
+	HighK    int     `json:"persons_k_above_0_7"`
+	GHKRelSE float64 `json:"ghk_relative_se"`
+	Persons  int     `json:"persons"`
+	Draws    int     `json:"draws"`
+	// Unconverged names the parameters that failed the convergence rule
+	// in the model's fit (its elpd is then not reliable either).
+	Unconverged []string `json:"unconverged_parameters"`
+	pointwise   []float64
+	pointwiseW  []float64
 }
 
 // Compare computes PSIS-LOO and WAIC for every model and the elpd
@@ -53,7 +61,7 @@ func Compare(models []ModelFit) ([]ModelResult, error) {
 			return nil, fmt.Errorf("compare: %s has %d persons, %s has %d: the models must share their data", m.Name, len(m.LL[0]), models[0].Name, N)
 		}
 		S := len(m.LL)
-		r := ModelResult{Name: m.Name, Persons: N, Draws: S, GHKRelSE: m.GHKSE}
+		r := ModelResult{Name: m.Name, Persons: N, Draws: S, GHKRelSE: m.GHKSE, Unconverged: append([]string{}, m.Unconverged...)}
 		col := make([]float64, S)
 		var lppd float64
 		for i := 0; i < N; i++ {
@@ -121,6 +129,11 @@ func WriteTable(w io.Writer, rs []ModelResult) error {
 		width = max(width, len(r.Name))
 	}
 	fmt.Fprintf(&b, "Person-level predictive accuracy (random intercepts and within paths integrated out by GHK)\n\n")
+	for _, r := range rs {
+		if note := diagnostics.UnconvergedNote(r.Unconverged); note != "" {
+			fmt.Fprintf(&b, "Warning: model %s is %s\n\n", r.Name, strings.Replace(note, "Do not report these results", "Its elpd is not reliable and the ranking may change", 1))
+		}
+	}
 	fmt.Fprintf(&b, "  %-*s %10s %8s %10s %8s %7s %10s %8s %7s\n", width, "model", "elpd_loo", "se", "elpd_diff", "se_diff", "p_loo", "elpd_waic", "se", "max k")
 	for _, r := range rs {
 		fmt.Fprintf(&b, "  %-*s %10.1f %8.1f %10.1f %8.1f %7.1f %10.1f %8.1f %7.2f\n", width, r.Name, r.ELPDLoo, r.SELoo, r.DiffLoo, r.SEDiff, r.PLoo, r.ELPDWaic, r.SEWaic, float64(r.MaxK))
@@ -129,7 +142,7 @@ func WriteTable(w io.Writer, rs []ModelResult) error {
 		if math.IsInf(float64(r.MaxK), 1) {
 			fmt.Fprintf(&b, "\nWarning: %s: too few draws to fit the Pareto tail; use more --draws.\n", r.Name)
 		} else if r.HighK > 0 {
-			fmt.Fprintf(&b, "\nWarning: %s: %d person(s) with Pareto k above 0.7; their leave-one-out estimates are unreliable (refit without them, or use more draws).\n", r.Name, r.HighK)
+			fmt.Fprintf(&b, "\nWarning: %s: %d %s with Pareto k above 0.7; their leave-one-out estimates are unreliable (refit without them, or use more draws).\n", r.Name, r.HighK, map[bool]string{true: "person", false: "persons"}[r.HighK == 1])
 		}
 		if r.GHKRelSE > 0.05 {
 			fmt.Fprintf(&b, "\nWarning: %s: the GHK likelihoods have a median relative Monte Carlo error of %.2g; raise --ghk-points.\n", r.Name, r.GHKRelSE)

@@ -2,8 +2,10 @@ package diagnostics
 
 import (
 	"cmp"
+	"fmt"
 	"math"
 	"slices"
+	"strings"
 
 	"gonum.org/v1/gonum/dsp/fourier"
 	"gonum.org/v1/gonum/mathext"
@@ -344,4 +346,25 @@ func Summarize(chains [][]float64, level float64) Summary {
 	out.MCSELower = mcseQuantileSorted(split, sorted, lp)
 	out.MCSEUpper = mcseQuantileSorted(split, sorted, up)
 	return out
+}
+
+// UnconvergedNote is the plain statement printed under every table made
+// from a run whose parameters names failed the convergence rule (R-hat <=
+// 1.01, bulk- and tail-ESS >= 400), "" when names is empty. At most six
+// names are listed.
+func UnconvergedNote(names []string) string {
+	if len(names) == 0 {
+		return ""
+	}
+	list := names
+	more := ""
+	if len(list) > 6 {
+		list, more = list[:6], fmt.Sprintf(" and %d more", len(names)-6)
+	}
+	what := "parameters fail"
+	if len(names) == 1 {
+		what = "parameter fails"
+	}
+	return fmt.Sprintf("NOT CONVERGED: %d %s the convergence rule (R-hat <= 1.01, bulk- and tail-ESS >= 400): %s%s. Do not report these results; run the fit longer (lagstar fit --until-converged) first.",
+		len(names), what, strings.Join(list, ", "), more)
 }

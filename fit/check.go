@@ -40,6 +40,7 @@ func Check(o CheckOptions) (*check.Result, error) {
 	if err != nil {
 		return nil, err
 	}
+	res.Unconverged = append([]string{}, run.unconverged...)
 	out, err := json.MarshalIndent(res, "", "  ")
 	if err != nil {
 		return nil, err
@@ -75,6 +76,9 @@ type finishedRun struct {
 	layout *sampler.Layout
 	draws  [][]float64
 	rec    report.RunRecord
+	// unconverged names the parameters that failed the convergence rule
+	// (from summary.json).
+	unconverged []string
 }
 
 // loadRun reads a finished run folder.
@@ -94,7 +98,15 @@ func loadRun(dir string) (*finishedRun, error) {
 	if err != nil {
 		return nil, err
 	}
-	return &finishedRun{layout: l, draws: draws, rec: rec}, nil
+	rawSum, err := model.ReadRunFile(dir, "summary.json")
+	if err != nil {
+		return nil, err
+	}
+	sum, err := report.ParseSummary(rawSum)
+	if err != nil {
+		return nil, model.Inputf(filepath.Join(dir, "summary.json"), 0, "%v", err)
+	}
+	return &finishedRun{layout: l, draws: draws, rec: rec, unconverged: sum.Unconverged}, nil
 }
 
 // openRun reads a run folder's run.json, checks its data copy against the

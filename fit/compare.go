@@ -53,7 +53,7 @@ func Compare(o CompareOptions) ([]compare.ModelResult, error) {
 		if err != nil {
 			return nil, model.Inputf(dir, 0, "%v", err)
 		}
-		fits = append(fits, compare.ModelFit{Name: filepath.Base(filepath.Clean(dir)), LL: ll, GHKSE: rel})
+		fits = append(fits, compare.ModelFit{Name: filepath.Base(filepath.Clean(dir)), LL: ll, GHKSE: rel, Unconverged: run.unconverged})
 	}
 	res, err := compare.Compare(fits)
 	if err != nil {

@@ -13,29 +13,30 @@ import (
 )
 
 // HTMLReport builds RUN_DIR/report.html from the run folder's summary.json,
-// draws.csv and, when present, check.json, and returns its path.
-func HTMLReport(runDir string) (string, error) {
+// draws.csv and, when present, check.json, and returns its path and the
+// run's summary.
+func HTMLReport(runDir string) (string, *report.Summary, error) {
 	raw, err := model.ReadRunFile(runDir, "summary.json")
 	if err != nil {
-		return "", err
+		return "", nil, err
 	}
 	s, err := report.ParseSummary(raw)
 	if err != nil {
-		return "", model.Inputf(runDir, 0, "%v", err)
+		return "", nil, model.Inputf(runDir, 0, "%v", err)
 	}
 	rawDraws, err := model.ReadRunFile(runDir, "draws.csv")
 	if err != nil {
-		return "", err
+		return "", nil, err
 	}
 	d, err := readDrawsColumns(rawDraws, filepath.Join(runDir, "draws.csv"))
 	if err != nil {
-		return "", err
+		return "", nil, err
 	}
 	var ppc []report.PPCStat
 	if rawCheck, err := model.ReadRunFile(runDir, "check.json"); err == nil {
 		var res check.Result
 		if err := json.Unmarshal(rawCheck, &res); err != nil {
-			return "", model.Inputf(filepath.Join(runDir, "check.json"), 0, "not valid: %v", err)
+			return "", nil, model.Inputf(filepath.Join(runDir, "check.json"), 0, "not valid: %v", err)
 		}
 		for _, st := range res.Stats {
 			switch st.Kind {
@@ -47,10 +48,10 @@ func HTMLReport(runDir string) (string, error) {
 	}
 	var buf bytes.Buffer
 	if err := report.WriteHTML(&buf, s, d, ppc); err != nil {
-		return "", err
+		return "", nil, err
 	}
 	out := filepath.Join(runDir, "report.html")
-	return out, report.WriteAtomic(out, buf.Bytes())
+	return out, s, report.WriteAtomic(out, buf.Bytes())
 }
 
 // readDrawsColumns reads draws.csv into columns per chain.

@@ -57,6 +57,21 @@ func (p *Panel) T() int { return len(p.Occasions) }
 // Cells returns the number of person-occasion-outcome cells.
 func (p *Panel) Cells() int { return len(p.Y) }
 
+// ObservedAt returns, for outcome j, the number of persons with an
+// observed value at each grid occasion.
+func (p *Panel) ObservedAt(j int) []int {
+	J := p.J()
+	n := make([]int, p.T())
+	for i := range p.Persons {
+		for t := 0; t < p.Len[i]; t++ {
+			if v := p.Y[p.Offset[i]+t*J+j]; v == v {
+				n[t]++
+			}
+		}
+	}
+	return n
+}
+
 // CellOf returns the person, grid occasion and outcome of cell c of Y.
 func (p *Panel) CellOf(c int) (i, t, j int) {
 	i = sort.SearchInts(p.Offset, c+1) - 1
@@ -514,13 +529,34 @@ func (pan *Panel) arrange(sp *Spec, file string, rows []cellRow) error {
 		occSet[r.occ] = true
 		byPerson[r.person] = append(byPerson[r.person], i)
 	}
+	values := make([]int, 0, len(occSet))
 	for o := range occSet {
-		pan.Occasions = append(pan.Occasions, o)
+		values = append(values, o)
 	}
-	slices.Sort(pan.Occasions)
+	slices.Sort(values)
+	grid, err := occasionGrid(file, sp, values)
+	if err != nil {
+		return err
+	}
+	pan.Occasions = grid
 	pos := map[int]int{}
 	for i, o := range pan.Occasions {
 		pos[o] = i
+	}
+	if len(grid) > len(values) {
+		var empty []string
+		for _, o := range grid {
+			if !occSet[o] {
+				empty = append(empty, strconv.Itoa(o))
+			}
+		}
+		step := grid[1] - grid[0]
+		what, verb, as := "occasion", "is", "an empty occasion"
+		if len(empty) > 1 {
+			what, verb, as = "occasions", "are", "empty occasions"
+		}
+		pan.Notes = append(pan.Notes, fmt.Sprintf("%s %s %s not in the data: inserted as %s with no answers, so that occasions %d to %d are equally spaced by %d (one lag is one step of %d)",
+			what, clip(empty, 10), verb, as, grid[0], grid[len(grid)-1], step, step))
 	}
 	persons := make([]string, 0, len(byPerson))
 	for id := range byPerson {
@@ -580,7 +616,7 @@ func (pan *Panel) arrange(sp *Spec, file string, rows []cellRow) error {
 		return Inputf(file, 0, "no person has an observed value of any outcome")
 	}
 	if len(dropped) > 0 {
-		pan.Notes = append(pan.Notes, fmt.Sprintf("%d person(s) with no observed value were left out: %s", len(dropped), clip(dropped, 5)))
+		pan.Notes = append(pan.Notes, fmt.Sprintf("%s with no observed value %s left out: %s", plural(len(dropped), "person", "persons"), pick(len(dropped) == 1, "was", "were"), clip(dropped, 5)))
 	}
 	for j := range pan.Outcomes {
 		if err := pan.checkVaries(sp, file, j); err != nil {
@@ -588,6 +624,64 @@ func (pan *Panel) arrange(sp *Spec, file string, rows []cellRow) error {
 		}
 	}
 	return p.err()
+}
+
+// occasionGrid returns the occasion grid of the sorted, distinct occasion
+// values: from the first to the last by the greatest common divisor of
+// their differences, so that equal time between occasions is one lag (a
+// wave nobody was asked about is an empty occasion, not a shorter lag).
+// A grid that would be mostly empty, more inserted occasions than
+// observed ones (one far-off value, say), is refused before it is built.
+func occasionGrid(file string, sp *Spec, values []int) ([]int, error) {
+	if len(values) < 2 {
+		return values, nil
+	}
+	step := 0
+	for _, v := range values[1:] {
+		step = gcd(step, v-values[0])
+	}
+	n := (values[len(values)-1]-values[0])/step + 1 // values lie within ±1e9: no overflow
+	if n-len(values) > len(values) {
+		what := "occasion values"
+		if sp.Data.Wide {
+			what = "occasions in the column names"
+		}
+		return nil, Inputf(file, 0, "the %s (%s) are unevenly spaced: equal spacing needs a grid of %d occasions from %d to %d by steps of %d, %d of them with no answers. If these are consecutive waves, recode them 1, 2, 3, ...; lagstar's carry-over is per step of the grid",
+			what, clip(intTexts(values), 8), n, values[0], values[len(values)-1], step, n-len(values))
+	}
+	grid := make([]int, n)
+	for i := range grid {
+		grid[i] = values[0] + i*step
+	}
+	return grid, nil
+}
+
+func gcd(a, b int) int {
+	for b != 0 {
+		a, b = b, a%b
+	}
+	return max(a, -a)
+}
+
+func intTexts(xs []int) []string {
+	out := make([]string, len(xs))
+	for i, x := range xs {
+		out[i] = strconv.Itoa(x)
+	}
+	return out
+}
+
+// plural picks the singular or plural form for a count n, with n in
+// front: plural(1, "person", "persons") is "1 person".
+func plural(n int, one, many string) string {
+	return fmt.Sprintf("%d %s", n, pick(n == 1, one, many))
+}
+
+func pick(c bool, a, b string) string {
+	if c {
+		return a
+	}
+	return b
 }
 
 // checkVaries refuses an outcome that takes a single value, and an ordinal

@@ -1,5 +1,12 @@
 package model
 
+import (
+	"fmt"
+	"slices"
+	"strconv"
+	"strings"
+)
+
 // Identify refuses option combinations that do not determine the model's
 // parameters from the data, each with a message saying why. The rules are
 // those documented in README.md ("Identification"):
@@ -21,6 +28,34 @@ func Identify(sp *Spec, pan *Panel) error {
 	T := pan.T()
 	J := len(sp.Outcomes)
 	f := sp.Path
+	if sp.Within.PathsFree && T > 1 {
+		var empty []string
+		for t, occ := range pan.Occasions {
+			seen := false
+			for j := 0; j < J && !seen; j++ {
+				seen = pan.ObservedAt(j)[t] > 0
+			}
+			if !seen {
+				empty = append(empty, strconv.Itoa(occ))
+			}
+		}
+		if len(empty) > 0 {
+			p.addf(f, 0, "dynamics.over_time: free needs answers at every occasion, and nobody answered at occasion %s: the paths into and out of an unobserved occasion cannot be told apart. Use dynamics.over_time: equal", strings.Join(empty, ", "))
+		}
+	}
+	if sp.Means.Free && sp.Means.Anchor != AnchorAuto && sp.Means.Anchor != AnchorFirst {
+		occ, _ := strconv.Atoi(sp.Means.Anchor)
+		t := slices.Index(pan.Occasions, occ)
+		if t < 0 {
+			p.addf(f, 0, "means.anchor: occasion %d is not an occasion of the data (%s)", occ, clip(intTexts(pan.Occasions), 8))
+		} else {
+			for j, o := range pan.Outcomes {
+				if o.Type.Categorical() && pan.ObservedAt(j)[t] == 0 {
+					p.addf(f, 0, "means.anchor: nobody answered outcome %q at occasion %d, so its thresholds cannot be set there; choose an occasion with answers, or auto", o.Name, occ)
+				}
+			}
+		}
+	}
 	if sp.Within.StationaryStart && sp.Within.PathsFree {
 		p.addf(f, 0, "dynamics.first_occasion: stationary needs dynamics.over_time: equal; a stationary distribution exists only when the carry-over paths and innovations are the same at every occasion")
 	}
@@ -88,4 +123,51 @@ func withinInformation(pan *Panel) (repeated, consecutive bool) {
 		}
 	}
 	return
+}
+
+// MeanAnchors returns, for each outcome, the grid occasion where its mean
+// is fixed at 0 when means are free over time (-1 for continuous outcomes
+// and with equal means), following means.anchor, and a note for each
+// outcome whose anchor is sparsely observed or was moved from the first
+// occasion. sp and pan must have passed Identify.
+func MeanAnchors(sp *Spec, pan *Panel) (anchor []int, notes []string) {
+	anchor = make([]int, pan.J())
+	for j, o := range pan.Outcomes {
+		anchor[j] = -1
+		if !sp.Means.Free || !o.Type.Categorical() {
+			continue
+		}
+		n := pan.ObservedAt(j)
+		first := slices.IndexFunc(n, func(c int) bool { return c > 0 })
+		best := first
+		for t, c := range n {
+			if c > n[best] {
+				best = t
+			}
+		}
+		sparse := 2*n[first] < n[best]
+		switch sp.Means.Anchor {
+		case AnchorAuto:
+			anchor[j] = first
+			if sparse {
+				anchor[j] = best
+				notes = append(notes, fmt.Sprintf("outcome %q: its means are differences from occasion %d, where its thresholds are set: only %s answered the first occasion (%d) against %d at occasion %d (means.anchor: auto; set means.anchor to choose another occasion)",
+					o.Name, pan.Occasions[best], plural(n[first], "person", "persons"), pan.Occasions[first], n[best], pan.Occasions[best]))
+			}
+		case AnchorFirst:
+			anchor[j] = first
+			if sparse {
+				notes = append(notes, fmt.Sprintf("outcome %q: its thresholds are set at occasion %d (means.anchor: first), which only %s answered against %d at occasion %d; the thresholds and every mean then rest on those few answers and mix slowly. Set means.anchor: auto (or %d)",
+					o.Name, pan.Occasions[first], plural(n[first], "person", "persons"), n[best], pan.Occasions[best], pan.Occasions[best]))
+			}
+		default:
+			occ, _ := strconv.Atoi(sp.Means.Anchor)
+			anchor[j] = slices.Index(pan.Occasions, occ)
+			if t := anchor[j]; 2*n[t] < n[best] {
+				notes = append(notes, fmt.Sprintf("outcome %q: its thresholds are set at occasion %d (means.anchor), which only %s answered against %d at occasion %d; the thresholds and every mean then rest on those few answers and mix slowly",
+					o.Name, occ, plural(n[t], "person", "persons"), n[best], pan.Occasions[best]))
+			}
+		}
+	}
+	return anchor, notes
 }

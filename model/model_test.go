@@ -25,7 +25,9 @@ func mustSpec(t *testing.T, text string) *Spec {
 }
 
 // TestPanelGridGapsOrder: rows in any order, string ids, a skipped wave is
-// a missing occasion, trailing occasions without data are dropped.
+// a missing occasion, trailing occasions without data are dropped, and
+// the grid steps by the spacing of the occasion values (here 2), with an
+// occasion nobody was asked about (7) inserted and noted.
 func TestPanelGridGapsOrder(t *testing.T) {
 	sp := mustSpec(t, spec2)
 	csv := "who,wave,mood,sick\n" +
@@ -33,15 +35,18 @@ func TestPanelGridGapsOrder(t *testing.T) {
 		"al,1,1,yes\n" +
 		"al,5,4,NA\n" +
 		"bo,1,3,\n" +
-		"al,2,,no\n" +
+		"al,3,,no\n" +
 		"cy,9,NA,NA\n" + // no observed value: dropped, but wave 9 joins the grid
-		"bo,2,NA,NA\n"
+		"bo,3,NA,NA\n"
 	pan, err := ParsePanel(sp, "d.csv", []byte(csv))
 	if err != nil {
 		t.Fatal(err)
 	}
-	if got := pan.Occasions; len(got) != 4 || got[0] != 1 || got[1] != 2 || got[2] != 5 || got[3] != 9 {
-		t.Fatalf("grid = %v, want [1 2 5 9]", got)
+	if got := pan.Occasions; !slices.Equal(got, []int{1, 3, 5, 7, 9}) {
+		t.Fatalf("grid = %v, want [1 3 5 7 9]", got)
+	}
+	if notes := strings.Join(pan.Notes, " "); !strings.Contains(notes, "occasion 7 is not in the data") || !strings.Contains(notes, "equally spaced by 2") {
+		t.Errorf("notes %q should say that occasion 7 was inserted", notes)
 	}
 	if strings.Join(pan.Persons, ",") != "al,bo" {
 		t.Fatalf("persons = %v, want [al bo]", pan.Persons)
@@ -60,6 +65,70 @@ func TestPanelGridGapsOrder(t *testing.T) {
 	}
 	if len(pan.Notes) == 0 || !strings.Contains(strings.Join(pan.Notes, " "), "cy") {
 		t.Errorf("notes %q should mention the dropped person cy", pan.Notes)
+	}
+}
+
+// TestOccasionSpacing: the grid follows the spacing of the occasion
+// values (step = greatest common divisor of their differences), so a wave
+// nobody was surveyed in is a missing occasion and 2019 -> 2021 is two
+// lags; a grid that would be mostly empty is refused with the values.
+func TestOccasionSpacing(t *testing.T) {
+	sp := mustSpec(t, strings.Replace(spec2, `labels: ["no", "yes"]`, "categories: 2", 1))
+	rows := func(occ ...int) string {
+		var b strings.Builder
+		b.WriteString("who,wave,mood,sick\n")
+		for i, o := range occ {
+			fmt.Fprintf(&b, "p%d,%d,%d,%d\n", i, o, 1+i%4, i%2)
+		}
+		return b.String()
+	}
+	for _, c := range []struct {
+		name   string
+		occ    []int
+		grid   []int
+		note   string
+		refuse string
+	}{
+		{"years with 2020 skipped", []int{2017, 2018, 2019, 2021, 2022, 2017, 2018, 2019, 2021, 2022, 2017, 2019, 2021}, []int{2017, 2018, 2019, 2020, 2021, 2022}, "occasion 2020 is not in the data", ""},
+		{"months by 6 with 18 missing", []int{0, 6, 12, 24, 0, 6, 12, 24, 0, 12, 24, 6}, []int{0, 6, 12, 18, 24}, "equally spaced by 6", ""},
+		{"evenly spaced, nothing inserted", []int{10, 20, 30, 10, 20, 30, 10, 20, 30}, []int{10, 20, 30}, "", ""},
+		{"one far-off value", []int{1, 2, 3, 1, 2, 3, 1, 2, 60}, nil, "", "(1, 2, 3, 60) are unevenly spaced: equal spacing needs a grid of 60 occasions"},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			pan, err := ParsePanel(sp, "d.csv", []byte(rows(c.occ...)))
+			if c.refuse != "" {
+				if err == nil || !strings.Contains(err.Error(), c.refuse) || !strings.Contains(err.Error(), "recode") {
+					t.Fatalf("err = %v, want it to contain %q and a hint to recode", err, c.refuse)
+				}
+				return
+			}
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !slices.Equal(pan.Occasions, c.grid) {
+				t.Errorf("grid = %v, want %v", pan.Occasions, c.grid)
+			}
+			notes := strings.Join(pan.Notes, " ")
+			if (c.note == "") != (notes == "") || !strings.Contains(notes, c.note) {
+				t.Errorf("notes = %q, want %q", notes, c.note)
+			}
+		})
+	}
+	// Person a answered 2019 and 2021 on the grid 2017..2022: positions 2
+	// and 4, two lags apart, with 2020 missing between them.
+	pan, err := ParsePanel(sp, "d.csv", []byte("who,wave,mood,sick\na,2019,1,0\na,2021,2,1\nb,2017,3,0\nb,2018,4,1\nb,2022,1,0\n"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	J := 2
+	if v := pan.Y[pan.Offset[0]+2*J]; v != 0 {
+		t.Errorf("a at 2019: %v, want category index 0 at grid position 2", v)
+	}
+	if v := pan.Y[pan.Offset[0]+3*J]; !math.IsNaN(v) {
+		t.Errorf("a at 2020 (nobody surveyed): %v, want missing", v)
+	}
+	if v := pan.Y[pan.Offset[0]+4*J]; v != 1 {
+		t.Errorf("a at 2021: %v, want category index 1 at grid position 4", v)
 	}
 }
 

@@ -111,7 +111,21 @@ type WithinSpec struct {
 // MeansSpec is the occasion-mean structure.
 type MeansSpec struct {
 	Free bool // over_time: free
+	// Anchor (means.anchor) says at which occasion a categorical outcome's
+	// mean is fixed at 0 when means are free (its thresholds carry the
+	// location there): AnchorAuto, AnchorFirst, or an occasion value.
+	Anchor string
 }
+
+// Mean anchors (means.anchor).
+const (
+	// AnchorAuto is the first occasion with answers, unless fewer than
+	// half as many persons answered it as the best-observed occasion:
+	// then the best-observed one.
+	AnchorAuto = "auto"
+	// AnchorFirst is the first occasion with answers.
+	AnchorFirst = "first"
+)
 
 // SamplerSpec holds the sampler settings of the model file.
 type SamplerSpec struct {
@@ -138,7 +152,7 @@ var schema = map[string][]string{
 	"outcomes":           {"name", "type", "categories", "lowest", "labels", "empty_categories", "columns"},
 	"person_differences": {"random_intercepts"},
 	"dynamics":           {"lags", "residual_correlation", "over_time", "first_occasion"},
-	"means":              {"over_time"},
+	"means":              {"over_time", "anchor"},
 	"sampler":            {"chains", "warmup", "draws", "seed", "threshold_update", "until_converged", "max_draws", "path_moves", "checkpoint_every"},
 }
 
@@ -181,6 +195,7 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 	sp.Data.Missing = []string{"", "NA"}
 	sp.Within.Lags = LagsCross
 	sp.Means.Free = true
+	sp.Means.Anchor = AnchorAuto
 	sp.Sampler = SamplerSpec{Chains: 4, Warmup: 1000, Draws: 1000, ThresholdUpdate: ThresholdJoint, MaxDraws: 20000, CheckpointEvery: 500}
 	r := &reader{file: path, p: p, schema: schema}
 	top := r.mapping(root, "")
@@ -268,6 +283,15 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 		m := r.mapping(n, "means")
 		if v, ok := m["over_time"]; ok {
 			sp.Means.Free = r.choice(v, "means.over_time", "free", "equal") == "free"
+		}
+		if v, ok := m["anchor"]; ok {
+			sp.Means.Anchor = v.Value
+			if _, err := strconv.Atoi(v.Value); v.Kind != yaml.ScalarNode || (err != nil && v.Value != AnchorAuto && v.Value != AnchorFirst) {
+				p.addf(path, v.Line, "means.anchor: expected auto, first or an occasion value (a whole number), got %q", v.Value)
+			}
+			if !sp.Means.Free {
+				p.addf(path, v.Line, "means.anchor: only used with means.over_time: free (with equal means every categorical mean is 0)")
+			}
 		}
 	}
 	if n, ok := top["sampler"]; ok {

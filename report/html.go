@@ -11,6 +11,7 @@ import (
 	"slices"
 	"strings"
 
+	"github.com/lagstar/lagstar/diagnostics"
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
 	"gonum.org/v1/plot/vg"
@@ -50,16 +51,25 @@ func WriteHTML(w io.Writer, s *Summary, d *Draws, ppc []PPCStat) error {
 body{font-family:system-ui,sans-serif;max-width:1100px;margin:2em auto;color:#222}
 table{border-collapse:collapse;font-size:13px}td,th{padding:2px 8px;text-align:right}td:first-child,th:first-child{text-align:left}
 tr.warn td{background:#fde2e1}h2{border-bottom:1px solid #ccc;margin-top:1.6em}.caution{background:#fff6d6;padding:.6em 1em}
-img{max-width:100%}</style></head><body>`)
-	status := "complete"
-	if !s.Complete {
+img{max-width:100%}.alarm{background:#b00020;color:#fff;padding:.8em 1em;font-weight:600}</style></head><body>`)
+	status := "complete and converged"
+	switch {
+	case !s.Complete:
 		status = "INCOMPLETE (interrupted)"
+	case !s.Converged:
+		status = "complete but NOT CONVERGED"
 	}
 	fmt.Fprintf(&b, "<h1>lagstar report</h1><p>%s %s, seed %d, run %s.</p>", esc(s.Program), esc(s.Version), s.Seed, status)
+	if !s.Complete {
+		fmt.Fprintf(&b, `<p class="alarm">This run was interrupted: its draws are incomplete. Finish it with lagstar fit --resume before reading anything here.</p>`)
+	}
+	if note := diagnostics.UnconvergedNote(s.Unconverged); note != "" {
+		fmt.Fprintf(&b, `<p class="alarm">%s Rows of these parameters are marked red below.</p>`, esc(note))
+	}
 	fmt.Fprintf(&b, `<p class="caution">%s</p>`, esc(Caution))
 	m := s.Model
 	b.WriteString("<h2>Model and data</h2><ul>")
-	fmt.Fprintf(&b, "<li>Data: %s, %d rows, %d persons, %d occasions (%v)</li>", esc(m.DataFile), m.Rows, m.Persons, len(m.Occasions), m.Occasions)
+	fmt.Fprintf(&b, "<li>Data: %s, %d rows, %d persons, %d occasions (%s)</li>", esc(m.DataFile), m.Rows, m.Persons, len(m.Occasions), esc(occasionRange(m.Occasions)))
 	for _, o := range m.Outcomes {
 		fmt.Fprintf(&b, "<li>Outcome %s: %s %s</li>", esc(o.Name), esc(o.Type), esc(strings.Join(o.Categories, ", ")))
 	}
@@ -81,7 +91,7 @@ img{max-width:100%}</style></head><body>`)
 	tabled := append(append([]Entry{}, s.Parameters...), tableOnly(s.Derived)...)
 	for _, e := range tabled {
 		cls := ""
-		if float64(e.Rhat) > RhatLimit || float64(e.ESSBulk) < ESSLimit || float64(e.ESSTail) < ESSLimit {
+		if entryBad(e) {
 			cls = ` class="warn"`
 		}
 		fmt.Fprintf(&b, "<tr%s><td>%s</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td></tr>", cls, esc(e.Name),
@@ -260,4 +270,19 @@ func PPCPlotPNG(stats []PPCStat) ([]byte, error) {
 		return nil, err
 	}
 	return buf.Bytes(), nil
+}
+
+// occasionRange describes the occasion grid in words: "1 to 42" or
+// "2017 to 2022 by 1", never as a Go list.
+func occasionRange(occ []int) string {
+	switch len(occ) {
+	case 0:
+		return "none"
+	case 1:
+		return fmt.Sprint(occ[0])
+	}
+	if step := occ[1] - occ[0]; step != 1 {
+		return fmt.Sprintf("%d to %d by %d", occ[0], occ[len(occ)-1], step)
+	}
+	return fmt.Sprintf("%d to %d", occ[0], occ[len(occ)-1])
 }

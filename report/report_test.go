@@ -182,12 +182,88 @@ func TestManuscriptTables(t *testing.T) {
 // as "undefined", never as NaN.
 func TestUndefinedDiagnosticsWarn(t *testing.T) {
 	nan := Num(math.NaN())
-	w := convergenceWarnings([]Entry{{Name: "stuck", Rhat: nan, ESSBulk: nan, ESSTail: 500}, {Name: "steady", Rhat: 1.001, ESSBulk: 900, ESSTail: 800}})
+	w, _ := convergenceWarnings(nil, []Entry{{Name: "stuck", Rhat: nan, ESSBulk: nan, ESSTail: 500}, {Name: "steady", Rhat: 1.001, ESSBulk: 900, ESSTail: 800}})
 	all := strings.Join(w, " ")
 	if len(w) != 2 || !strings.Contains(all, "stuck (undefined)") || !strings.Contains(all, "stuck (bulk undefined, tail 500)") || strings.Contains(all, "steady") {
 		t.Errorf("warnings %q", w)
 	}
 	if strings.Contains(all, "NaN") {
 		t.Errorf("warnings hold NaN: %q", w)
+	}
+}
+
+// TestRuleMatchesPrintedValues: the convergence rule is judged on the
+// values as printed, so the table cannot show 1.010 for a failing R-hat
+// or 400 for a failing ESS.
+func TestRuleMatchesPrintedValues(t *testing.T) {
+	for _, c := range []struct {
+		rhat, ess float64
+		bad       bool
+	}{
+		{1.0104, 400, false},  // printed 1.010 and 400: passes
+		{1.0106, 400, true},   // printed 1.011
+		{1.005, 399.6, false}, // printed 400
+		{1.005, 399.4, true},  // printed 399
+	} {
+		e := Entry{Rhat: Num(c.rhat), ESSBulk: Num(c.ess), ESSTail: 1000}
+		if got := entryBad(e); got != c.bad {
+			t.Errorf("R-hat %v (printed %s), ESS %v (printed %s): bad = %v, want %v", c.rhat, fr(e.Rhat), c.ess, f0(e.ESSBulk), got, c.bad)
+		}
+	}
+}
+
+// TestWarningsListEverything: summary.json names every unconverged
+// parameter (in unconverged and in the warning), while the terminal
+// table shortens long lists.
+func TestWarningsListEverything(t *testing.T) {
+	res := shortRun(t, 30)
+	s := Build(res, 0.9, "test")
+	if s.Converged || len(s.Unconverged) < 7 {
+		t.Fatalf("a 30-draw run: converged %v, unconverged %v; want several", s.Converged, s.Unconverged)
+	}
+	all := strings.Join(s.Warnings, " ")
+	for _, name := range s.Unconverged {
+		if !strings.Contains(all, name+" (") {
+			t.Errorf("summary warnings do not name %s", name)
+		}
+	}
+	var buf bytes.Buffer
+	if err := WriteTable(&buf, s); err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(buf.String(), "more:") || !strings.Contains(buf.String(), "NOT CONVERGED") || !strings.Contains(buf.String(), " !\n") {
+		t.Errorf("terminal table should shorten the lists, say NOT CONVERGED and mark rows:\n%s", buf.String())
+	}
+}
+
+// TestPriorDominatedAndExplosive: a random-intercept variance or path
+// whose posterior interval is at least half as wide as its prior's is
+// named, and so is a posterior-mean carry-over matrix with an eigenvalue
+// of modulus 1 or more. The prior interval of a random-intercept
+// variance under inverse-Wishart(J+1, I) is that of inverse-gamma(1, 1/2):
+// from 0.5/(-ln 0.025) to 0.5/(-ln 0.975) at the 95% level (closed form).
+func TestPriorDominatedAndExplosive(t *testing.T) {
+	l := shortRun(t, 30).Layout
+	lo, hi, logScale, ok := priorInterval(l, Entry{Kind: "ri_variance", Outcome: "rested"}, 0.95)
+	if !ok || !logScale || math.Abs(lo-0.5/-math.Log(0.025)) > 1e-9 || math.Abs(hi-0.5/-math.Log(0.975)) > 1e-9 {
+		t.Errorf("prior interval of ri_variance = (%v, %v), want (%v, %v)", lo, hi, 0.5/-math.Log(0.025), 0.5/-math.Log(0.975))
+	}
+	es := []Entry{
+		{Name: "ri_variance[rested]", Kind: "ri_variance", Outcome: "rested", Level: 0.95, Lower: 0.01, Upper: 4, Mean: 0.5},
+		{Name: "ri_variance[headache]", Kind: "ri_variance", Outcome: "headache", Level: 0.95, Lower: 0.4, Upper: 0.9, Mean: 0.6},
+		{Name: "autoregression[rested]", Kind: "autoregression", Outcome: "rested", Level: 0.95, Lower: -0.9, Upper: 1.2, Mean: 1.04},
+		{Name: "autoregression[headache]", Kind: "autoregression", Outcome: "headache", Level: 0.95, Lower: 0.2, Upper: 0.4, Mean: 0.3},
+	}
+	w := strings.Join(priorDominated(l, es), " ")
+	if !strings.Contains(w, "ri_variance[rested] (interval") || !strings.Contains(w, "autoregression[rested] (interval 54%") ||
+		strings.Contains(w, "[headache]") {
+		t.Errorf("barely-informed warning = %q; want ri_variance[rested] and autoregression[rested] only", w)
+	}
+	if w := explosive(l, es); len(w) != 1 || !strings.Contains(w[0], "modulus 1.040") {
+		t.Errorf("explosive = %q, want one warning with modulus 1.040", w)
+	}
+	es[2].Mean = 0.5
+	if w := explosive(l, es); len(w) != 0 {
+		t.Errorf("stable carry-over warned about: %q", w)
 	}
 }

@@ -77,12 +77,15 @@ type ModelInfo struct {
 	PathsOverTime       string        `json:"paths_over_time"`
 	FirstOccasion       string        `json:"first_occasion"`
 	MeansOverTime       string        `json:"means_over_time"`
-	Priors              []string      `json:"priors"`
-	Chains              int           `json:"chains"`
-	Warmup              int           `json:"warmup"`
-	Draws               int           `json:"draws"`
-	ThresholdUpdate     string        `json:"threshold_update"`
-	Notes               []string      `json:"notes,omitempty"`
+	// MeanAnchor gives, per categorical outcome with free means, the
+	// occasion whose mean is fixed at 0 (the others are differences from it).
+	MeanAnchor      map[string]int `json:"mean_anchor,omitempty"`
+	Priors          []string       `json:"priors"`
+	Chains          int            `json:"chains"`
+	Warmup          int            `json:"warmup"`
+	Draws           int            `json:"draws"`
+	ThresholdUpdate string         `json:"threshold_update"`
+	Notes           []string       `json:"notes,omitempty"`
 }
 
 // Summary is the content of summary.json.
@@ -95,7 +98,15 @@ type Summary struct {
 	RunLength  *RunLength `json:"run_length,omitempty"`
 	Parameters []Entry    `json:"parameters"`
 	Derived    []Entry    `json:"derived"`
-	Warnings   []string   `json:"warnings"`
+	// Converged says whether every parameter and tabled derived quantity
+	// meets the convergence rule (R-hat <= 1.01, bulk- and tail-ESS >=
+	// 400); Unconverged names those that do not, all of them.
+	Converged   bool     `json:"converged"`
+	Unconverged []string `json:"unconverged"`
+	Warnings    []string `json:"warnings"`
+	// brief holds the warnings as the terminal shows them (long lists
+	// shortened); summary.json holds them whole.
+	brief []string
 }
 
 // RunLength records what run-until-converged did.
@@ -112,7 +123,7 @@ func Converged(res *sampler.Result) (bool, string) {
 	es := entries(res.Params, res.Draws, res.Kept, 0.95)
 	for _, e := range es {
 		r, b, t := float64(e.Rhat), float64(e.ESSBulk), float64(e.ESSTail)
-		if rhatBad(r) || essBad(b) || essBad(t) {
+		if entryBad(e) {
 			return false, fmt.Sprintf("%s (R-hat %s, bulk-ESS %s, tail-ESS %s)", e.Name, diag(r, 3), diag(b, 0), diag(t, 0))
 		}
 	}
@@ -120,9 +131,17 @@ func Converged(res *sampler.Result) (bool, string) {
 }
 
 // rhatBad and essBad fail a diagnostic that is past its limit or
-// undefined (NaN: e.g. a parameter whose draws never change).
-func rhatBad(r float64) bool { return !(r <= RhatLimit) }
-func essBad(x float64) bool  { return !(x >= ESSLimit) }
+// undefined (NaN: e.g. a parameter whose draws never change). They
+// compare the value as printed (R-hat to 3 decimals, ESS to whole
+// numbers), so a table can never show a passing number for a failing
+// parameter or the other way round.
+func rhatBad(r float64) bool { return !(math.Round(r*1000)/1000 <= RhatLimit) }
+func essBad(x float64) bool  { return !(math.Round(x) >= ESSLimit) }
+
+// entryBad reports whether e fails the convergence rule.
+func entryBad(e Entry) bool {
+	return rhatBad(float64(e.Rhat)) || essBad(float64(e.ESSBulk)) || essBad(float64(e.ESSTail))
+}
 
 // diag formats a diagnostic with the given decimals, "undefined" for NaN.
 func diag(x float64, decimals int) string {
@@ -148,23 +167,48 @@ func Build(res *sampler.Result, level float64, version string) *Summary {
 		PathsOverTime: pick(l.PathsFree, "free", "equal"), FirstOccasion: pick(sp.Within.StationaryStart, "stationary", "free"),
 		MeansOverTime: pick(l.MeansFree, "free", "equal"), Priors: l.Priors.Describe(l.J),
 		Chains: res.Options.Chains, Warmup: res.Options.Warmup, Draws: res.Options.Draws,
-		ThresholdUpdate: string(res.Options.ThresholdUpdate), Notes: l.Panel.Notes}
-	for _, o := range l.Panel.Outcomes {
+		ThresholdUpdate: string(res.Options.ThresholdUpdate), Notes: append(slices.Clip(l.Panel.Notes), l.Notes...)}
+	for j, o := range l.Panel.Outcomes {
 		mi.Outcomes = append(mi.Outcomes, OutcomeInfo{Name: o.Name, Type: string(o.Type), Categories: o.Codes})
+		if t := l.Anchor[j]; t >= 0 {
+			if mi.MeanAnchor == nil {
+				mi.MeanAnchor = map[string]int{}
+			}
+			mi.MeanAnchor[o.Name] = l.Panel.Occasions[t]
+		}
 	}
 	s.Model = mi
 	s.Parameters = entries(res.Params, res.Draws, res.Kept, level)
 	s.Derived = entries(res.Derived, res.DerivedDraws, res.Kept, level)
 	if res.Incomplete {
-		s.Warnings = append(s.Warnings, fmt.Sprintf("the run was interrupted: chains kept %v of %d draws; this summary is incomplete", res.Kept, res.Options.Draws))
+		s.Warnings = append(s.Warnings, fmt.Sprintf("the run was interrupted: the chains kept %s of %d draws each; this summary is incomplete", joinInts(res.Kept), res.Options.Draws))
+	}
+	s.brief = slices.Clone(s.Warnings)
+	add := func(full, brief []string) {
+		s.Warnings = append(s.Warnings, full...)
+		s.brief = append(s.brief, brief...)
+	}
+	checked := append(append([]Entry{}, s.Parameters...), tableOnly(s.Derived)...)
+	s.Unconverged = []string{}
+	for _, e := range checked {
+		if entryBad(e) {
+			s.Unconverged = append(s.Unconverged, e.Name)
+		}
 	}
 	if kept := slices.Min(append([]int{math.MaxInt}, res.Kept...)); kept < 4 {
-		s.Warnings = append(s.Warnings, fmt.Sprintf("too few draws (%d in the shortest chain) to judge convergence; nothing here can be reported", kept))
+		w := fmt.Sprintf("too few draws (%d in the shortest chain) to judge convergence; nothing here can be reported", kept)
+		add([]string{w}, []string{w})
 	} else {
-		s.Warnings = append(s.Warnings, convergenceWarnings(append(append([]Entry{}, s.Parameters...), tableOnly(s.Derived)...))...)
+		s.Converged = len(s.Unconverged) == 0
+		add(convergenceWarnings(l, checked))
+		w := append(priorDominated(l, s.Parameters), explosive(l, s.Parameters)...)
+		add(w, w)
 	}
 	for _, n := range l.Panel.Notes {
-		s.Warnings = append(s.Warnings, "data: "+n)
+		add([]string{"data: " + n}, []string{"data: " + n})
+	}
+	for _, n := range l.Notes {
+		add([]string{"model: " + n}, []string{"model: " + n})
 	}
 	return s
 }
@@ -232,8 +276,13 @@ func entries(ps []sampler.Param, draws [][]float64, kept []int, level float64) [
 	return out
 }
 
-func convergenceWarnings(es []Entry) []string {
+// convergenceWarnings names every entry that fails the convergence rule
+// (full: all of them; brief: lists shortened for the terminal) and, where
+// failing entries rest on a sparsely observed occasion, says so instead
+// of only advising longer runs.
+func convergenceWarnings(l *sampler.Layout, es []Entry) (full, brief []string) {
 	var rh, ess []string
+	var bad []Entry
 	for _, e := range es {
 		if r := float64(e.Rhat); rhatBad(r) {
 			rh = append(rh, fmt.Sprintf("%s (%s)", e.Name, diag(r, 3)))
@@ -242,15 +291,22 @@ func convergenceWarnings(es []Entry) []string {
 		if essBad(b) || essBad(t) {
 			ess = append(ess, fmt.Sprintf("%s (bulk %s, tail %s)", e.Name, diag(b, 0), diag(t, 0)))
 		}
+		if entryBad(e) {
+			bad = append(bad, e)
+		}
 	}
-	var w []string
+	both := func(format string, list []string, args ...any) {
+		full = append(full, fmt.Sprintf(format, append([]any{strings.Join(list, ", ")}, args...)...))
+		brief = append(brief, fmt.Sprintf(format, append([]any{clipList(list)}, args...)...))
+	}
 	if len(rh) > 0 {
-		w = append(w, fmt.Sprintf("R-hat above %.2f for %s: the chains disagree; run longer (raise --warmup and --draws), and if it persists simplify the model or check identification", RhatLimit, clipList(rh)))
+		both("R-hat above 1.01 for %s: the chains disagree, so these estimates are not yet usable; run longer (--until-converged, or raise --warmup and --draws), and if it persists simplify the model or check identification", rh)
 	}
 	if len(ess) > 0 {
-		w = append(w, fmt.Sprintf("effective sample size below %d for %s: intervals and means are not yet reliable; raise --draws (and --warmup)", ESSLimit, clipList(ess)))
+		both("effective sample size below 400 for %s: intervals and means are not yet reliable; raise --draws (and --warmup), or use --until-converged", ess)
 	}
-	return w
+	causes := causeAdvice(l, bad)
+	return append(full, causes...), append(brief, causes...)
 }
 
 func clipList(xs []string) string {
@@ -268,4 +324,13 @@ func (s *Summary) JSON() ([]byte, error) {
 		return nil, err
 	}
 	return append(b, '\n'), nil
+}
+
+// joinInts writes numbers as "1095, 1152 and 883" (never as a Go list).
+func joinInts(xs []int) string {
+	t := make([]string, len(xs))
+	for i, x := range xs {
+		t[i] = strconv.Itoa(x)
+	}
+	return joinAnd(t)
 }

@@ -36,8 +36,11 @@ func WriteTable(w io.Writer, s *Summary) error {
 	hi := fmt.Sprintf("%.3g%%", 100*(1-(1-level)/2))
 	var b strings.Builder
 	status := "complete"
-	if !s.Complete {
+	switch {
+	case !s.Complete:
 		status = "INCOMPLETE (interrupted)"
+	case !s.Converged:
+		status = "complete but NOT CONVERGED (rows marked ! fail R-hat <= 1.01 or ESS >= 400; see the warnings)"
 	}
 	fmt.Fprintf(&b, "%s %s: %d persons, %d occasions, %d outcomes; %d chains x %d draws (seed %d), run %s\n",
 		s.Program, s.Version, s.Model.Persons, len(s.Model.Occasions), len(s.Model.Outcomes), s.Model.Chains, s.Model.Draws, s.Seed, status)
@@ -46,7 +49,7 @@ func WriteTable(w io.Writer, s *Summary) error {
 		if !rl.Converged {
 			verdict = "NOT converged at the cap"
 		}
-		fmt.Fprintf(&b, "run until converged: %d round(s), %d draws per chain (cap %d), %s\n", rl.Rounds, rl.DrawsPerChain, rl.MaxDraws, verdict)
+		fmt.Fprintf(&b, "run until converged: %d %s, %d draws per chain (cap %d), %s\n", rl.Rounds, pick(rl.Rounds == 1, "round", "rounds"), rl.DrawsPerChain, rl.MaxDraws, verdict)
 	}
 	head := fmt.Sprintf("  %-*s %9s %8s %9s %9s %7s %8s %8s\n", width, "parameter", "mean", "sd", lo, hi, "R-hat", "ESS-bulk", "ESS-tail")
 	for _, g := range tableGroups {
@@ -63,13 +66,21 @@ func WriteTable(w io.Writer, s *Summary) error {
 		}
 		fmt.Fprintf(&b, "\n%s\n%s", g.title, head)
 		for _, e := range rows {
-			fmt.Fprintf(&b, "  %-*s %9s %8s %9s %9s %7s %8s %8s\n", width, e.Name, f3(e.Mean), f3(e.SD), f3(e.Lower), f3(e.Upper),
-				fr(e.Rhat), f0(e.ESSBulk), f0(e.ESSTail))
+			mark := ""
+			if entryBad(e) {
+				mark = " !"
+			}
+			fmt.Fprintf(&b, "  %-*s %9s %8s %9s %9s %7s %8s %8s%s\n", width, e.Name, f3(e.Mean), f3(e.SD), f3(e.Lower), f3(e.Upper),
+				fr(e.Rhat), f0(e.ESSBulk), f0(e.ESSTail), mark)
 		}
 	}
 	if len(s.Warnings) > 0 {
 		b.WriteString("\nWarnings\n")
-		for _, w := range s.Warnings {
+		ws := s.Warnings
+		if len(s.brief) == len(ws) {
+			ws = s.brief
+		}
+		for _, w := range ws {
 			fmt.Fprintf(&b, "  - %s\n", w)
 		}
 	}

@@ -7,7 +7,10 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"strconv"
 	"strings"
+
+	"github.com/lagstar/lagstar/diagnostics"
 )
 
 // ParseSummary decodes a summary.json (null numbers become NaN).
@@ -22,6 +25,7 @@ func ParseSummary(raw []byte) (*Summary, error) {
 	}
 	out := s.Summary
 	out.Parameters, out.Derived = nil, nil
+	recompute := out.Unconverged == nil // written before the field existed
 	for _, e := range s.Parameters {
 		out.Parameters = append(out.Parameters, e.entry())
 	}
@@ -32,6 +36,15 @@ func ParseSummary(raw []byte) (*Summary, error) {
 			d.table = true
 		}
 		out.Derived = append(out.Derived, d)
+	}
+	if recompute {
+		out.Unconverged = []string{}
+		for _, e := range append(append([]Entry{}, out.Parameters...), tableOnly(out.Derived)...) {
+			if entryBad(e) {
+				out.Unconverged = append(out.Unconverged, e.Name)
+			}
+		}
+		out.Converged = len(out.Unconverged) == 0
 	}
 	return &out, nil
 }
@@ -165,9 +178,10 @@ func WriteManuscriptTable(w io.Writer, s *Summary, format string) error {
 	case "csv":
 		var b bytes.Buffer
 		cw := csv.NewWriter(&b)
-		cw.Write([]string{"section", "quantity", "parameter", "mean", "lower", "upper", "std_mean", "std_lower", "std_upper", "level"})
+		cw.Write([]string{"section", "quantity", "parameter", "mean", "lower", "upper", "std_mean", "std_lower", "std_upper", "level", "converged"})
 		for _, r := range rows {
-			rec := []string{r.section, r.label, r.est.Name, f(r.est.Mean), f(r.est.Lower), f(r.est.Upper), "", "", "", f(r.est.Level)}
+			rec := []string{r.section, r.label, r.est.Name, f(r.est.Mean), f(r.est.Lower), f(r.est.Upper), "", "", "", f(r.est.Level),
+				strconv.FormatBool(!entryBad(*r.est) && (r.std == nil || !entryBad(*r.std)))}
 			if r.std != nil {
 				rec[6], rec[7], rec[8] = f(r.std.Mean), f(r.std.Lower), f(r.std.Upper)
 			}
@@ -189,11 +203,12 @@ func WriteManuscriptTable(w io.Writer, s *Summary, format string) error {
 			sm, si := cell(r.std)
 			fmt.Fprintf(&b, "| %s | %s | %s | %s | %s |\n", r.label, m, i, sm, si)
 		}
-		fmt.Fprintf(&b, "\nPosterior means with central %s (categorical outcomes on the probit latent-response scale, continuous ones on their own scale). Standardized: within-person standardized paths. %s\n", ci+"s", Caution)
+		fmt.Fprintf(&b, "\n%s\n", tableNote(s, ci))
 		_, err := io.WriteString(w, b.String())
 		return err
 	case "latex":
 		var b strings.Builder
+		fmt.Fprintf(&b, "\\begin{table}[ht]\n\\centering\n\\caption{%s}\n\\label{tab:lagstar}\n", tex(tableCaption(s)))
 		b.WriteString("\\begin{tabular}{lrlrl}\n\\hline\n")
 		fmt.Fprintf(&b, "Quantity & Estimate & %s & Standardized & %s \\\\\n\\hline\n", tex(ci), tex(ci))
 		section := ""
@@ -207,10 +222,59 @@ func WriteManuscriptTable(w io.Writer, s *Summary, format string) error {
 			fmt.Fprintf(&b, "%s & %s & %s & %s & %s \\\\\n", tex(strings.ReplaceAll(r.label, "→", "->")), m, i, sm, si)
 		}
 		b.WriteString("\\hline\n\\end{tabular}\n")
+		fmt.Fprintf(&b, "\\par\\smallskip\n\\begin{minipage}{\\linewidth}\\footnotesize\\textit{Note.} %s\n\\end{minipage}\n\\end{table}\n", tex(tableNote(s, ci)))
 		_, err := io.WriteString(w, b.String())
 		return err
 	}
 	return fmt.Errorf("unknown table format %q (md, latex or csv)", format)
+}
+
+// tableCaption names the model and the data of a manuscript table.
+func tableCaption(s *Summary) string {
+	m := s.Model
+	names := make([]string, len(m.Outcomes))
+	for i, o := range m.Outcomes {
+		names[i] = o.Name
+	}
+	kind := "Random-intercept cross-lagged model"
+	switch {
+	case !m.RandomIntercepts && m.Lags == "none":
+		kind = "Model without carry-over or random intercepts"
+	case !m.RandomIntercepts:
+		kind = "Cross-lagged panel model (no random intercepts)"
+	case m.Lags == "none":
+		kind = "Random-intercept model without carry-over"
+	case m.Lags == "own" || len(names) == 1:
+		kind = "Random-intercept autoregressive model"
+	}
+	return fmt.Sprintf("%s of %s: posterior estimates (N = %d persons, %d occasions)", kind, joinAnd(names), m.Persons, len(m.Occasions))
+}
+
+// tableNote is the note under a manuscript table: what the numbers are,
+// the sample, the run and whether it converged, and the caution.
+func tableNote(s *Summary, ci string) string {
+	m := s.Model
+	occ := ""
+	if n := len(m.Occasions); n > 0 {
+		occ = fmt.Sprintf(" (%d to %d)", m.Occasions[0], m.Occasions[n-1])
+	}
+	conv := "All parameters met the convergence rule (R-hat <= 1.01, bulk- and tail-ESS >= 400)."
+	if note := diagnostics.UnconvergedNote(s.Unconverged); note != "" {
+		conv = note
+	}
+	if !s.Complete {
+		conv = "INCOMPLETE: the run was interrupted; finish it with lagstar fit --resume before reporting. " + conv
+	}
+	return fmt.Sprintf("Posterior means with central %ss; categorical outcomes on the probit latent-response scale, continuous ones on their own scale. Standardized: within-person standardized paths. N = %d persons, %d occasions%s; %d chains of %d draws after %d warm-up. %s %s",
+		ci, m.Persons, len(m.Occasions), occ, m.Chains, m.Draws, m.Warmup, conv, Caution)
+}
+
+// joinAnd joins names as "a", "a and b", "a, b and c".
+func joinAnd(names []string) string {
+	if len(names) <= 1 {
+		return strings.Join(names, "")
+	}
+	return strings.Join(names[:len(names)-1], ", ") + " and " + names[len(names)-1]
 }
 
 func f(n Num) string {
@@ -221,7 +285,7 @@ func f(n Num) string {
 }
 
 func tex(s string) string {
-	r := strings.NewReplacer(`\`, `\textbackslash{}`, "&", `\&`, "%", `\%`, "$", `\$`, "#", `\#`, "_", `\_`, "{", `\{`, "}", `\}`, "~", `\textasciitilde{}`, "^", `\textasciicircum{}`, "->", `$\rightarrow$`)
+	r := strings.NewReplacer(`\`, `\textbackslash{}`, "&", `\&`, "%", `\%`, "$", `\$`, "#", `\#`, "_", `\_`, "{", `\{`, "}", `\}`, "~", `\textasciitilde{}`, "^", `\textasciicircum{}`, "->", `$\rightarrow$`, "<=", `$\le$`, ">=", `$\ge$`)
 	return r.Replace(s)
 }
 

@@ -30,9 +30,16 @@ type Layout struct {
 	MeansFree bool
 
 	// MeanIdx[t*J+j] is the index of the free mean parameter of outcome j at
-	// grid occasion t, or -1 where the mean is fixed at 0.
+	// grid occasion t, or -1 where the mean is fixed at 0: a categorical
+	// outcome's anchor occasion (Anchor[j], see model.MeanAnchors), and
+	// any occasion where nobody answered the outcome (its mean would touch
+	// no data).
 	MeanIdx []int
 	NMean   int
+	Anchor  []int
+	// Notes are remarks on the layout for the summary (a moved or
+	// sparsely observed anchor).
+	Notes []string
 	// PathFree[r*J+c] marks A[r,c] as free.
 	PathFree []bool
 	// Groups are the free covariance matrices; GroupOf[t] is the group of
@@ -77,16 +84,20 @@ func NewLayout(sp *model.Spec, pan *model.Panel, pr priors.Set) *Layout {
 			l.Center[j], l.Scale[j] = meanSD(pan, j)
 		}
 	}
-	// Means: categorical outcomes have nu_j0 = 0 (location from thresholds);
-	// continuous outcomes have a free first mean.
+	// Means: categorical outcomes have nu_j = 0 at their anchor occasion
+	// (location from thresholds); continuous outcomes have a free first mean.
+	l.Anchor, l.Notes = model.MeanAnchors(sp, pan)
+	observed := make([][]int, J)
+	for j := range observed {
+		observed[j] = pan.ObservedAt(j)
+	}
 	l.MeanIdx = make([]int, T*J)
 	for i := range l.MeanIdx {
 		l.MeanIdx[i] = -1
 	}
 	for t := 0; t < T; t++ {
 		for j := 0; j < J; j++ {
-			switch {
-			case l.MeansFree && (t > 0 || !l.Cat[j]):
+			if l.MeansFree && t != l.Anchor[j] && observed[j][t] > 0 {
 				l.MeanIdx[t*J+j] = l.NMean
 				l.NMean++
 			}

@@ -1,6 +1,9 @@
 package main
 
 import (
+	"fmt"
+
+	"github.com/lagstar/lagstar/diagnostics"
 	"io"
 
 	"github.com/lagstar/lagstar/check"
@@ -35,6 +38,9 @@ check.json into the run folder.`,
 			}
 			if err != nil {
 				return err
+			}
+			if note := diagnostics.UnconvergedNote(res.Unconverged); note != "" {
+				fmt.Fprintf(stderr, "warning: %s: %s\n", o.RunDir, note)
 			}
 			return check.WriteTable(stdout, res)
 		},

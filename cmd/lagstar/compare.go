@@ -1,6 +1,9 @@
 package main
 
 import (
+	"fmt"
+
+	"github.com/lagstar/lagstar/diagnostics"
 	"io"
 
 	"github.com/lagstar/lagstar/compare"
@@ -34,6 +37,11 @@ standard errors. Continuous outcomes enter through their normal density.`,
 			}
 			if err != nil {
 				return err
+			}
+			for _, r := range res {
+				if note := diagnostics.UnconvergedNote(r.Unconverged); note != "" {
+					fmt.Fprintf(stderr, "warning: model %s: %s\n", r.Name, note)
+				}
 			}
 			return compare.WriteTable(stdout, res)
 		},

@@ -3,6 +3,7 @@ package main
 import (
 	"bytes"
 	"context"
+	"encoding/csv"
 	"encoding/json"
 	"os"
 	"path/filepath"
@@ -462,5 +463,51 @@ func TestOutFolderSafety(t *testing.T) {
 	}
 	if again, _ := os.ReadFile(filepath.Join(out, "draws.csv")); string(again) == string(first) {
 		t.Error("--overwrite did not write the new run")
+	}
+}
+
+// TestUnconvergedNeverHides: a run that fails the convergence rule says so
+// in every output made from it (manuscript tables in each format, the
+// HTML report, check, compare) and on stderr; the LaTeX table is a whole
+// table environment with a caption and a note naming N and occasions.
+func TestUnconvergedNeverHides(t *testing.T) {
+	dir, mp := setup(t, goodModel, goodData())
+	out := filepath.Join(dir, "short")
+	if code, _, stderr := runCLI("fit", mp, "--out", out, "--quiet", "--warmup", "10", "--draws", "10"); code != 0 {
+		t.Fatalf("fit: %s", stderr)
+	}
+	for _, format := range []string{"md", "latex"} {
+		code, stdout, stderr := runCLI("report", out, "--table", format)
+		if code != 0 || !strings.Contains(stdout, "NOT CONVERGED") || !strings.Contains(stderr, "NOT CONVERGED") {
+			t.Errorf("report --table %s: exit %d; output and stderr should say NOT CONVERGED:\n%s\n%s", format, code, stdout, stderr)
+		}
+		if !strings.Contains(stdout, "N = 12 persons, 4 occasions") {
+			t.Errorf("report --table %s: the note should name N and the occasions:\n%s", format, stdout)
+		}
+		if format == "latex" {
+			for _, want := range []string{`\begin{table}`, `\caption{`, `\textit{Note.}`, `\end{table}`} {
+				if !strings.Contains(stdout, want) {
+					t.Errorf("latex table lacks %s", want)
+				}
+			}
+		}
+	}
+	_, stdout, _ := runCLI("report", out, "--table", "csv")
+	if recs, err := csv.NewReader(strings.NewReader(stdout)).ReadAll(); err != nil || recs[0][len(recs[0])-1] != "converged" || !strings.Contains(stdout, ",false\n") {
+		t.Errorf("csv table should carry a converged column with false rows (err %v):\n%s", err, stdout)
+	}
+	if code, _, stderr := runCLI("report", out); code != 0 || !strings.Contains(stderr, "NOT CONVERGED") {
+		t.Errorf("report (HTML): exit %d, stderr %q", code, stderr)
+	}
+	if page, _ := os.ReadFile(filepath.Join(out, "report.html")); !strings.Contains(string(page), `class="alarm">NOT CONVERGED`) || strings.Contains(string(page), "run complete.") {
+		t.Error("the HTML report should carry a NOT CONVERGED banner and never say just 'run complete'")
+	}
+	code, stdout, stderr := runCLI("check", out, "--draws", "10")
+	if code != 0 || !strings.Contains(stdout, "NOT CONVERGED") || !strings.Contains(stderr, "NOT CONVERGED") {
+		t.Errorf("check: exit %d; output and stderr should say NOT CONVERGED:\n%s\n%s", code, stdout, stderr)
+	}
+	code, stdout, stderr = runCLI("compare", out, out, "--draws", "10", "--ghk-points", "20")
+	if code != 0 || !strings.Contains(stdout, "model short is NOT CONVERGED") || !strings.Contains(stderr, "NOT CONVERGED") {
+		t.Errorf("compare: exit %d; output and stderr should say NOT CONVERGED:\n%s\n%s", code, stdout, stderr)
 	}
 }

@@ -3,6 +3,7 @@ package main
 import (
 	"bytes"
 	"fmt"
+	"github.com/lagstar/lagstar/diagnostics"
 	"io"
 
 	"github.com/lagstar/lagstar/fit"
@@ -31,10 +32,11 @@ Markdown, latex: a tabular, csv: one row per quantity).`,
 			switch table {
 			case "md", "latex", "csv":
 			case "":
-				path, err := fit.HTMLReport(args[0])
+				path, s, err := fit.HTMLReport(args[0])
 				if err != nil {
 					return err
 				}
+				warnUnfinished(stderr, args[0], s)
 				fmt.Fprintf(stderr, "wrote %s\n", path)
 				return nil
 			default:
@@ -48,6 +50,7 @@ Markdown, latex: a tabular, csv: one row per quantity).`,
 			if err != nil {
 				return model.Inputf(args[0], 0, "%v", err)
 			}
+			warnUnfinished(stderr, args[0], s)
 			var b bytes.Buffer
 			if err := report.WriteManuscriptTable(&b, s, table); err != nil {
 				return err
@@ -66,4 +69,15 @@ Markdown, latex: a tabular, csv: one row per quantity).`,
 	cmd.Flags().StringVar(&table, "table", "", "table format: md, latex or csv")
 	cmd.Flags().StringVar(&out, "out", "", "write the table to this file instead of standard output")
 	return cmd
+}
+
+// warnUnfinished says on stderr that the run behind a report is
+// incomplete or did not converge (the report itself says so too).
+func warnUnfinished(stderr io.Writer, dir string, s *report.Summary) {
+	if !s.Complete {
+		fmt.Fprintf(stderr, "warning: %s: the run was interrupted and is incomplete; finish it with lagstar fit --resume %s\n", dir, dir)
+	}
+	if note := diagnostics.UnconvergedNote(s.Unconverged); note != "" {
+		fmt.Fprintf(stderr, "warning: %s: %s\n", dir, note)
+	}
 }

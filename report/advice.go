@@ -1,0 +1,221 @@
+package report
+
+import (
+	"fmt"
+	"math"
+	"math/cmplx"
+	"slices"
+	"strings"
+
+	"github.com/lagstar/lagstar/sampler"
+	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/stat/distuv"
+)
+
+// PriorRatioLimit is the ratio of a posterior interval's width to the
+// prior's (same level; log scale for variances) above which a
+// random-intercept variance or a path is reported as barely informed by
+// the data.
+const PriorRatioLimit = 0.5
+
+// sparseShare is the share of the best-observed occasion's persons below
+// which an occasion counts as sparse.
+const sparseShare = 0.5
+
+// occasionCounts returns, per grid occasion, the persons with any answer
+// there.
+func occasionCounts(l *sampler.Layout) []int {
+	n := make([]int, l.T)
+	pan := l.Panel
+	for i := range pan.Persons {
+		for t := 0; t < pan.Len[i]; t++ {
+			for j := 0; j < l.J; j++ {
+				if v := pan.Y[pan.Offset[i]+t*l.J+j]; v == v {
+					n[t]++
+					break
+				}
+			}
+		}
+	}
+	return n
+}
+
+// sparseCause names the sparse occasion an entry rests on ("" when it
+// rests on no single occasion, or on a well-observed one): the occasion
+// of an occasion-specific parameter, the first occasion for the first
+// occasion's covariance.
+func sparseCause(l *sampler.Layout, counts []int, e Entry) (occ, n int, ok bool) {
+	t := -1
+	switch {
+	case strings.HasPrefix(e.Kind, "initial_"):
+		t = 0
+	case e.Occasion != nil:
+		t = slices.Index(l.Panel.Occasions, *e.Occasion)
+	}
+	if t < 0 {
+		return 0, 0, false
+	}
+	best := slices.Max(counts)
+	if float64(counts[t]) >= sparseShare*float64(best) {
+		return 0, 0, false
+	}
+	return l.Panel.Occasions[t], counts[t], true
+}
+
+// causeAdvice groups the unconverged entries that rest on a sparse
+// occasion into one sentence per occasion.
+func causeAdvice(l *sampler.Layout, bad []Entry) []string {
+	if l == nil {
+		return nil
+	}
+	counts := occasionCounts(l)
+	best := slices.Max(counts)
+	byOcc := map[int][]string{}
+	initial := false
+	for _, e := range bad {
+		if occ, _, ok := sparseCause(l, counts, e); ok {
+			byOcc[occ] = append(byOcc[occ], e.Name)
+			initial = initial || strings.HasPrefix(e.Kind, "initial_")
+		}
+	}
+	occs := make([]int, 0, len(byOcc))
+	for o := range byOcc {
+		occs = append(occs, o)
+	}
+	slices.Sort(occs)
+	var out []string
+	for _, o := range occs {
+		t := slices.Index(l.Panel.Occasions, o)
+		msg := fmt.Sprintf("likely cause: %s %s on occasion %d, which only %d %s answered (against %d at the best-observed occasion); longer runs help little there",
+			strings.Join(byOcc[o], ", "), pick(len(byOcc[o]) == 1, "rests", "rest"), o, counts[t], pick(counts[t] == 1, "person", "persons"), best)
+		if initial && t == 0 && l.HasPaths() && !l.PathsFree {
+			msg += "; dynamics.first_occasion: stationary takes the first occasion's covariance from the carry-over process instead of estimating it"
+		}
+		out = append(out, msg)
+	}
+	return out
+}
+
+// priorInterval returns the central interval at level of the prior of a
+// random-intercept variance or a path, on the entry's scale, and whether
+// the entry has such a prior (other kinds: false). Variances are
+// compared on the log scale.
+func priorInterval(l *sampler.Layout, e Entry, level float64) (lo, hi float64, logScale, ok bool) {
+	pr := l.Priors
+	scale := func(name string) float64 {
+		for j, o := range l.Panel.Outcomes {
+			if o.Name == name {
+				return l.Scale[j]
+			}
+		}
+		return 1
+	}
+	a := (1 - level) / 2
+	switch e.Kind {
+	case "autoregression", "crosslag":
+		// N(0, PathSD^2) on the standardized scale (the stationary start's
+		// truncation to the stable region is ignored: a wider interval).
+		z := distuv.UnitNormal.Quantile(1 - a)
+		f := 1.0
+		if e.Kind == "crosslag" {
+			f = scale(e.Outcome) / scale(e.From)
+		}
+		return -z * pr.PathSD * f, z * pr.PathSD * f, false, true
+	case "ri_variance":
+		if !l.RI {
+			return 0, 0, false, false
+		}
+		// The diagonal of an inverse-Wishart(J + d, s I) is
+		// inverse-gamma((d + 1)/2, s/2): s/2 over a Gamma((d + 1)/2, 1).
+		g := distuv.Gamma{Alpha: (pr.RIDfExtra + 1) / 2, Beta: 1}
+		s2 := scale(e.Outcome) * scale(e.Outcome)
+		return s2 * pr.RIScale / 2 / g.Quantile(1-a), s2 * pr.RIScale / 2 / g.Quantile(a), true, true
+	}
+	return 0, 0, false, false
+}
+
+// priorDominated lists the random-intercept variances and paths whose
+// posterior interval is at least PriorRatioLimit as wide as the prior's.
+func priorDominated(l *sampler.Layout, es []Entry) []string {
+	var out []string
+	for _, e := range es {
+		lo, hi, logScale, ok := priorInterval(l, e, float64(e.Level))
+		plo, phi := float64(e.Lower), float64(e.Upper)
+		if !ok || math.IsNaN(plo) || math.IsNaN(phi) {
+			continue
+		}
+		var r float64
+		if logScale {
+			if !(plo > 0) {
+				continue
+			}
+			r = math.Log(phi/plo) / math.Log(hi/lo)
+		} else {
+			r = (phi - plo) / (hi - lo)
+		}
+		if r >= PriorRatioLimit {
+			out = append(out, fmt.Sprintf("%s (interval %.0f%% as wide as the prior's)", e.Name, 100*r))
+		}
+	}
+	if len(out) == 0 {
+		return nil
+	}
+	return []string{fmt.Sprintf("barely informed by the data: %s; the posterior there mostly restates the prior, so do not read these estimates as findings (more persons or occasions, or a simpler model, would inform them)", strings.Join(out, ", "))}
+}
+
+// explosive warns when the posterior mean carry-over matrix (of each
+// occasion when paths are free over time) has an eigenvalue of modulus 1
+// or more: a process that grows without bound, rarely a sensible
+// description of within-person change.
+func explosive(l *sampler.Layout, es []Entry) []string {
+	if l == nil || !l.HasPaths() {
+		return nil
+	}
+	idx := map[string]int{}
+	for j, o := range l.Panel.Outcomes {
+		idx[o.Name] = j
+	}
+	J := l.J
+	mats := map[int][]float64{} // occasion (or -1) -> A
+	for _, e := range es {
+		if e.Kind != "autoregression" && e.Kind != "crosslag" {
+			continue
+		}
+		occ := -1
+		if e.Occasion != nil {
+			occ = *e.Occasion
+		}
+		if mats[occ] == nil {
+			mats[occ] = make([]float64, J*J)
+		}
+		from := e.Outcome
+		if e.Kind == "crosslag" {
+			from = e.From
+		}
+		mats[occ][idx[e.Outcome]*J+idx[from]] = float64(e.Mean)
+	}
+	occs := make([]int, 0, len(mats))
+	for o := range mats {
+		occs = append(occs, o)
+	}
+	slices.Sort(occs)
+	var out []string
+	for _, o := range occs {
+		var eig mat.Eigen
+		if !eig.Factorize(mat.NewDense(J, J, mats[o]), mat.EigenNone) {
+			continue
+		}
+		m := 0.0
+		for _, v := range eig.Values(nil) {
+			m = max(m, cmplx.Abs(v))
+		}
+		if m >= 1 {
+			at := ""
+			if o >= 0 {
+				at = fmt.Sprintf(" into occasion %d", o)
+			}
+			out = append(out, fmt.Sprintf("explosive carry-over%s: the posterior mean carry-over matrix has an eigenvalue of modulus %.3f (1 or more), a process that grows without bound; check the data's coding and spacing, or use dynamics.first_occasion: stationary, which keeps the process stable", at, m))
+		}
+	}
+	return out
+}
