@@ -468,6 +468,19 @@ func resolveOutcome(sp *Spec, file string, o OutcomeSpec, rows []cellRow, k int)
 	if lo == math.MaxInt {
 		return out, Inputf(file, 0, "outcome %q has no observed values", o.Name)
 	}
+	if o.Type == Binary && o.Lowest == nil && (lo < 0 || hi > 1) {
+		codes := make([]string, 0, len(distinct))
+		for v := range distinct {
+			codes = append(codes, v)
+		}
+		slices.SortFunc(codes, func(a, b string) int { x, _ := parseOccasion(a); y, _ := parseOccasion(b); return cmp.Compare(x, y) })
+		hint := fmt.Sprintf("labels: [%q, %q] (lower category first, so %q is modelled as the upper one) or lowest: %d", codes[0], codes[len(codes)-1], codes[len(codes)-1], lo)
+		if len(codes) == 1 {
+			hint = fmt.Sprintf("labels: [\"<the other code>\", %q] with the lower category first", codes[0])
+		}
+		return out, Inputf(file, 0, "outcome %q is binary but coded %s, not 0/1: say which code is the upper category (\"yes\") in %s with %s",
+			o.Name, strings.Join(codes, " and "), sp.Path, hint)
+	}
 	lowest := lo
 	if o.Type == Binary && o.Lowest == nil && lo >= 0 && hi <= 1 {
 		lowest = 0

@@ -71,7 +71,7 @@ img{max-width:100%}.alarm{background:#b00020;color:#fff;padding:.8em 1em;font-we
 	b.WriteString("<h2>Model and data</h2><ul>")
 	fmt.Fprintf(&b, "<li>Data: %s, %d rows, %d persons, %d occasions (%s)</li>", esc(m.DataFile), m.Rows, m.Persons, len(m.Occasions), esc(occasionRange(m.Occasions)))
 	for _, o := range m.Outcomes {
-		fmt.Fprintf(&b, "<li>Outcome %s: %s %s</li>", esc(o.Name), esc(o.Type), esc(strings.Join(o.Categories, ", ")))
+		fmt.Fprintf(&b, "<li>Outcome %s</li>", esc(strings.TrimSpace(OutcomeLine(o))))
 	}
 	fmt.Fprintf(&b, "<li>Random intercepts: %v; carry-over: %s; residual correlation: %v; paths over time: %s; first occasion: %s; means over time: %s</li>",
 		m.RandomIntercepts, esc(m.Lags), m.ResidualCorrelation, esc(m.PathsOverTime), esc(m.FirstOccasion), esc(m.MeansOverTime))

@@ -105,7 +105,8 @@ func TestSummaryShape(t *testing.T) {
 	if err := WriteTable(&buf, s); err != nil {
 		t.Fatal(err)
 	}
-	for _, want := range []string{"Measurement", "Between persons", "Within persons", "Derived", "crosslag[rested->headache]", "icc[rested]", "5%", "95%", Caution} {
+	for _, want := range []string{"Measurement", "Between persons", "Within persons", "Derived", "crosslag[rested->headache]", "icc[rested]", "5%", "95%", Caution,
+		`headache: binary, "yes" is the upper category`, " answers, ", " missing (no: "} {
 		if !strings.Contains(buf.String(), want) {
 			t.Errorf("table lacks %q", want)
 		}

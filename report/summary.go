@@ -56,11 +56,18 @@ type Entry struct {
 	table     bool
 }
 
-// OutcomeInfo describes one outcome in the summary.
+// OutcomeInfo describes one outcome in the summary: its categories in
+// order (the last is the highest: for a binary outcome the one whose
+// probability is modelled), how many answers were observed and missing
+// on the persons' occasions, and how often each category was given.
 type OutcomeInfo struct {
 	Name       string   `json:"name"`
 	Type       string   `json:"type"`
 	Categories []string `json:"categories,omitempty"`
+	Highest    string   `json:"highest_category,omitempty"`
+	Observed   int      `json:"observed"`
+	Missing    int      `json:"missing"`
+	Counts     []int    `json:"category_counts,omitempty"`
 }
 
 // ModelInfo describes the fitted model and data.
@@ -169,7 +176,7 @@ func Build(res *sampler.Result, level float64, version string) *Summary {
 		Chains: res.Options.Chains, Warmup: res.Options.Warmup, Draws: res.Options.Draws,
 		ThresholdUpdate: string(res.Options.ThresholdUpdate), Notes: append(slices.Clip(l.Panel.Notes), l.Notes...)}
 	for j, o := range l.Panel.Outcomes {
-		mi.Outcomes = append(mi.Outcomes, OutcomeInfo{Name: o.Name, Type: string(o.Type), Categories: o.Codes})
+		mi.Outcomes = append(mi.Outcomes, outcomeInfo(l, j))
 		if t := l.Anchor[j]; t >= 0 {
 			if mi.MeanAnchor == nil {
 				mi.MeanAnchor = map[string]int{}
@@ -211,6 +218,32 @@ func Build(res *sampler.Result, level float64, version string) *Summary {
 		add([]string{"model: " + n}, []string{"model: " + n})
 	}
 	return s
+}
+
+// outcomeInfo counts outcome j's answers on the panel.
+func outcomeInfo(l *sampler.Layout, j int) OutcomeInfo {
+	pan := l.Panel
+	o := pan.Outcomes[j]
+	info := OutcomeInfo{Name: o.Name, Type: string(o.Type), Categories: o.Codes}
+	if o.K > 0 {
+		info.Highest = o.Codes[o.K-1]
+		info.Counts = make([]int, o.K)
+	}
+	for i := range pan.Persons {
+		for t := 0; t < pan.Len[i]; t++ {
+			v := pan.Y[pan.Offset[i]+t*l.J+j]
+			switch {
+			case v != v:
+				info.Missing++
+			default:
+				info.Observed++
+				if o.K > 0 {
+					info.Counts[int(v)]++
+				}
+			}
+		}
+	}
+	return info
 }
 
 func pick(c bool, a, b string) string {

@@ -44,6 +44,9 @@ func WriteTable(w io.Writer, s *Summary) error {
 	}
 	fmt.Fprintf(&b, "%s %s: %d persons, %d occasions, %d outcomes; %d chains x %d draws (seed %d), run %s\n",
 		s.Program, s.Version, s.Model.Persons, len(s.Model.Occasions), len(s.Model.Outcomes), s.Model.Chains, s.Model.Draws, s.Seed, status)
+	for _, o := range s.Model.Outcomes {
+		fmt.Fprintf(&b, "%s\n", OutcomeLine(o))
+	}
 	if rl := s.RunLength; rl != nil {
 		verdict := "converged"
 		if !rl.Converged {
@@ -87,6 +90,29 @@ func WriteTable(w io.Writer, s *Summary) error {
 	fmt.Fprintf(&b, "\n%s\n", Caution)
 	_, err := io.WriteString(w, b.String())
 	return err
+}
+
+// OutcomeLine describes an outcome's coding and answers in one line:
+// which category is highest (for binary outcomes, the one modelled),
+// observed and missing answers and the category counts.
+func OutcomeLine(o OutcomeInfo) string {
+	var b strings.Builder
+	fmt.Fprintf(&b, "  %s: %s", o.Name, o.Type)
+	switch o.Type {
+	case "binary":
+		fmt.Fprintf(&b, ", %q is the upper category (its probability is modelled)", o.Highest)
+	case "ordinal":
+		fmt.Fprintf(&b, ", categories %s (highest %q)", strings.Join(o.Categories, " < "), o.Highest)
+	}
+	fmt.Fprintf(&b, "; %d answers, %d missing", o.Observed, o.Missing)
+	if len(o.Counts) > 0 {
+		parts := make([]string, len(o.Counts))
+		for k, n := range o.Counts {
+			parts[k] = fmt.Sprintf("%s: %d", o.Categories[k], n)
+		}
+		fmt.Fprintf(&b, " (%s)", strings.Join(parts, ", "))
+	}
+	return b.String()
 }
 
 func bad(n Num) bool { return math.IsNaN(float64(n)) || math.IsInf(float64(n), 0) }

@@ -170,6 +170,8 @@ func TestBadInput(t *testing.T) {
 			[]string{"data.csv:3:", `outcome "mood" (column "mood_2")`, "category 9 outside 1..3"}},
 		{"bad checkpoint interval", goodModel, data, []string{"--checkpoint-every", "-5"},
 			[]string{"--checkpoint-every"}},
+		{"binary coded 1/2 without labels", goodModel, strings.NewReplacer(",0\n", ",2\n").Replace(data), nil,
+			[]string{"data.csv", `outcome "pain" is binary but coded 1 and 2, not 0/1`, `labels: ["1", "2"]`, "upper category"}},
 		// A given 0 is a value, not "the default".
 		{"zero draws", goodModel, data, []string{"--draws", "0"},
 			[]string{"--draws: expected a whole number >= 1, got 0"}},
