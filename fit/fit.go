@@ -28,6 +28,9 @@ type Options struct {
 	// ModelPath names the model file. When ModelRaw is set it is used
 	// instead of reading ModelPath, and DataRaw instead of the data file.
 	ModelPath string
+	// DataPath, when set, replaces the model file's data.csv (e.g. a
+	// simulated panel fitted with the same model file).
+	DataPath string
 	ModelRaw  []byte
 	DataRaw   []byte
 
@@ -71,6 +74,12 @@ func Prepare(o Options) (*sampler.Layout, error) {
 	}
 	if err != nil {
 		return nil, err
+	}
+	if o.DataPath != "" {
+		if st, err := os.Stat(o.DataPath); err != nil || st.IsDir() {
+			return nil, model.Inputf(o.DataPath, 0, "--data: expected a CSV file (it does not exist or is a folder)")
+		}
+		sp.Data.File = o.DataPath
 	}
 	var pan *model.Panel
 	if o.DataRaw != nil {

@@ -57,8 +57,15 @@ func Simulate(o SimulateOptions) ([]byte, error) {
 func truthFrom(sp *model.Spec, ts *model.TruthSpec, file string, T int) (sampler.Truth, error) {
 	J := len(sp.Outcomes)
 	idx := map[string]int{}
+	// Missing cells are written as the model file's first missing code
+	// (by default an empty cell), so the model reads the file back as is.
 	tr := sampler.Truth{PersonCol: sp.Data.Person, OccasionCol: sp.Data.Occasion, Missing: ts.Missing,
 		Tau: make([][]float64, J), Codes: make([][]string, J), Sigma: make([]float64, J*J)}
+	if len(sp.Data.Missing) > 0 {
+		tr.MissingCode, tr.MissingSet = sp.Data.Missing[0], true
+	} else if ts.Missing > 0 {
+		return tr, model.Inputf(sp.Path, 0, "data.missing_codes is empty, so simulated missing cells (missing: %g in %s) could not be written; list a missing code", ts.Missing, file)
+	}
 	var errs []error
 	bad := func(format string, args ...any) { errs = append(errs, model.Inputf(file, 0, format, args...)) }
 	for j, o := range sp.Outcomes {

@@ -24,8 +24,11 @@ type Truth struct {
 	A      []float64   // J x J carry-over (equal over time); nil: none
 	Sigma  []float64   // J x J innovation covariance
 	Sigma1 []float64   // J x J first-occasion covariance; nil: stationary
-	// Missing is the probability that a cell is missing.
-	Missing float64
+	// Missing is the probability that a cell is missing; such cells are
+	// written as MissingCode ("NA" when empty and MissingSet is false).
+	Missing     float64
+	MissingCode string
+	MissingSet  bool
 	// PersonCol and OccasionCol name the index columns ("person" and
 	// "occasion" when empty); Codes[j], when not nil, names outcome j's
 	// categories (else they are written 0..K-1).
@@ -37,6 +40,10 @@ type Truth struct {
 // per outcome) of n persons and t occasions, with every row present
 // (missing cells written as NA).
 func Simulate(tr Truth, n, t int, rng *rand.Rand) ([]byte, error) {
+	missingText := tr.MissingCode
+	if !tr.MissingSet {
+		missingText = "NA"
+	}
 	J := len(tr.Names)
 	JJ := J * J
 	sig1 := tr.Sigma1
@@ -118,7 +125,7 @@ func Simulate(tr Truth, n, t int, rng *rand.Rand) ([]byte, error) {
 				}
 				y := nu + b[j] + w[j]
 				if rng.Float64() < tr.Missing {
-					rec = append(rec, "NA")
+					rec = append(rec, missingText)
 					continue
 				}
 				if !tr.Types[j].Categorical() {

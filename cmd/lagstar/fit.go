@@ -26,6 +26,7 @@ type fitOptions struct {
 	maxDraws              int
 	checkpointEvery       int
 	overwrite             bool
+	data                  string
 	intro                 string // printed before the table (demo)
 }
 
@@ -54,7 +55,7 @@ the same seed would have given.`,
 				if len(args) > 0 {
 					return &usageError{fmt.Errorf("--resume takes its settings from the run folder; give no model file (got %q)", args[0])}
 				}
-				for _, name := range []string{"out", "chains", "warmup", "draws", "seed", "level", "until-converged", "max-draws", "checkpoint-every", "overwrite"} {
+				for _, name := range []string{"out", "chains", "warmup", "draws", "seed", "level", "until-converged", "max-draws", "checkpoint-every", "overwrite", "data"} {
 					if cmd.Flags().Changed(name) {
 						return &usageError{fmt.Errorf("--%s cannot be used with --resume: the run continues with the settings in %s/run.json", name, resume)}
 					}
@@ -72,13 +73,14 @@ the same seed would have given.`,
 				out = base + "-fit"
 			}
 			fo := o.fitOptions(cmd)
-			fo.ModelPath, fo.OutDir = args[0], out
+			fo.ModelPath, fo.OutDir, fo.DataPath = args[0], out, o.data
 			return runFit(cmd, fo, o, stdout, stderr)
 		},
 	}
 	o.bind(cmd)
 	cmd.Flags().StringVar(&o.out, "out", "", "output folder (default: the model file's name with -fit)")
 	cmd.Flags().StringVar(&resume, "resume", "", "finish the interrupted fit in this run folder")
+	cmd.Flags().StringVar(&o.data, "data", "", "fit this CSV instead of the model file's data.csv (e.g. a simulated panel)")
 	cmd.Flags().IntVar(&o.checkpointEvery, "checkpoint-every", 0, "sweeps between chain checkpoints (default from the model file, else 500; 0: only when stopped)")
 	return cmd
 }

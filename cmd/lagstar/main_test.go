@@ -233,6 +233,24 @@ func TestSimulateThenFit(t *testing.T) {
 	if !strings.HasPrefix(string(raw), "id,wave,mood,pain\n") || strings.Count(string(raw), "\n") != 251 {
 		t.Fatalf("unexpected simulated file: %q...", string(raw[:min(60, len(raw))]))
 	}
+	// Missing cells are left empty, as the help says (the default first
+	// missing code), and there are some at missing: 0.05.
+	if strings.Contains(string(raw), "NA") || !strings.Contains(string(raw), ",,") && !strings.Contains(string(raw), ",\n") {
+		t.Errorf("simulated missing cells should be empty:\n%s", raw[:min(300, len(raw))])
+	}
+	// --data fits another CSV with the same model file.
+	sim := filepath.Join(dir, "sim.csv")
+	os.Rename(filepath.Join(dir, "data.csv"), sim)
+	if code, _, stderr := runCLI("fit", mp, "--data", sim, "--out", filepath.Join(dir, "simfit"), "--quiet", "--draws", "20"); code != 0 {
+		t.Fatalf("fit --data: exit %d: %s", code, stderr)
+	}
+	if rec, _ := os.ReadFile(filepath.Join(dir, "simfit", "run.json")); !strings.Contains(string(rec), "sim.csv") {
+		t.Error("run.json should name the --data file")
+	}
+	if code, _, stderr := runCLI("fit", mp, "--data", filepath.Join(dir, "nope.csv"), "--out", filepath.Join(dir, "nofit"), "--quiet"); code != 2 || !strings.Contains(stderr, "--data") {
+		t.Errorf("fit --data at a missing file: exit %d, stderr %q", code, stderr)
+	}
+	os.Rename(sim, filepath.Join(dir, "data.csv"))
 	code, _, stderr = runCLI("fit", mp, "--out", filepath.Join(dir, "run"), "--quiet")
 	if code != 0 {
 		t.Fatalf("fit of simulated data: exit %d: %s", code, stderr)

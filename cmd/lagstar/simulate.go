@@ -24,7 +24,8 @@ truth file:
   paths:             [{from: mood, to: mood, value: 0.4}, {from: mood, to: pain, value: -0.1}]
   innovations:       {correlations: [{outcomes: [mood, pain], value: 0.2}]}
   first_occasion:    {correlations: [{outcomes: [mood, pain], value: 0.2}]}
-  missing:           0.05                   # share of cells left empty
+  missing:           0.05                   # share of cells written as the model's
+                                            # first missing code (default: empty)
 
 Latent variances of categorical outcomes are 1 (identification); continuous
 outcomes need their variances. Use it to check a design before collecting data.`,
