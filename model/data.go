@@ -26,6 +26,8 @@ type Outcome struct {
 	K int
 	// Codes names the categories in order, as they appear in the data.
 	Codes []string
+	// Note is a remark on the outcome's values for the summary ("" none).
+	Note string
 }
 
 // Panel is the data arranged on the occasion grid. Person i occupies grid
@@ -117,12 +119,20 @@ func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
 	raw = bytes.TrimPrefix(raw, []byte("\xef\xbb\xbf"))
 	r := csv.NewReader(bytes.NewReader(raw))
 	r.FieldsPerRecord = -1
+	r.Comma = separator(sp.Data.Separator, raw)
 	header, err := r.Read()
 	if err == io.EOF {
 		return nil, Inputf(file, 0, "data file is empty; expected a header row naming the columns and at least one data row")
 	}
 	if err != nil {
 		return nil, Inputf(file, 1, "cannot read the header row: %v", csvMsg(err))
+	}
+	p := &problems{}
+	// Spreadsheets often save empty columns after the last one: drop them.
+	trailing := 0
+	for len(header) > 1 && strings.TrimSpace(header[len(header)-1]) == "" {
+		header = header[:len(header)-1]
+		trailing++
 	}
 	col := map[string]int{}
 	for i, h := range header {
@@ -133,7 +143,10 @@ func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
 		}
 		col[h] = i
 	}
-	p := &problems{}
+	var notes []string
+	if trailing > 0 {
+		notes = append(notes, fmt.Sprintf("%s without a name at the end of the header ignored", plural(trailing, "empty column", "empty columns")))
+	}
 	missing := map[string]bool{}
 	for _, m := range sp.Data.Missing {
 		missing[m] = true
@@ -160,6 +173,7 @@ func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
 		return id, true
 	}
 	var rows []cellRow
+	empty := 0
 	firstLine := map[string]int{} // wide layout: the row of each person
 	if sp.Data.Wide {
 		wc, err := wideColumns(sp, file, header, col)
@@ -167,7 +181,7 @@ func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
 			return nil, err
 		}
 		pi := col[sp.Data.Person]
-		readRecords(r, file, len(header), p, func(rec []string, line int) {
+		empty = readRecords(r, file, len(header), trailing, p, func(rec []string, line int) {
 			id, ok := person(rec, pi, line)
 			if !ok {
 				return
@@ -198,14 +212,14 @@ func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
 		for k, name := range need {
 			i, ok := col[name]
 			if !ok {
-				p.addf(file, 1, "missing column %q named in %s%s; the header has: %s", name, sp.Path, suggest(name, header), strings.Join(header, ", "))
+				p.addf(file, 1, "missing column %q named in %s%s; the header has: %s%s", name, sp.Path, suggest(name, header), clip(header, 12), wideHint(name, header))
 			}
 			idx[k] = i
 		}
 		if err := p.err(); err != nil {
 			return nil, err
 		}
-		readRecords(r, file, len(header), p, func(rec []string, line int) {
+		empty = readRecords(r, file, len(header), trailing, p, func(rec []string, line int) {
 			id, ok := person(rec, idx[0], line)
 			if !ok {
 				return
@@ -214,7 +228,11 @@ func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
 			occText := strings.TrimSpace(rec[idx[1]])
 			occ, ok := parseOccasion(occText)
 			if !ok {
-				p.addf(file, line, "column %q: occasion %q is not a whole number (occasions must be integers that order the waves or days)", sp.Data.Occasion, occText)
+				hint := ""
+				if dateLike.MatchString(occText) {
+					hint = "; it looks like a date or time: recode it as a whole number of days (or hours) since a start, e.g. the study day"
+				}
+				p.addf(file, line, "column %q: occasion %q is not a whole number (occasions must be integers that order the waves or days)%s", sp.Data.Occasion, clipCell(occText), hint)
 				return
 			}
 			c.occ = occ
@@ -230,7 +248,10 @@ func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
 	if len(rows) == 0 {
 		return nil, Inputf(file, 0, "data file has a header but no data rows")
 	}
-	pan := &Panel{File: file, Raw: orig, SHA256: hex.EncodeToString(sum[:]), Rows: len(rows)}
+	if empty > 0 {
+		notes = append(notes, fmt.Sprintf("%s with every cell empty skipped", plural(empty, "row", "rows")))
+	}
+	pan := &Panel{File: file, Raw: orig, SHA256: hex.EncodeToString(sum[:]), Rows: len(rows), Notes: notes}
 	if sp.Data.Wide {
 		pan.Rows = len(firstLine)
 	}
@@ -242,6 +263,9 @@ func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
 			continue
 		}
 		pan.Outcomes[k] = out
+		if out.Note != "" {
+			pan.Notes = append(pan.Notes, out.Note)
+		}
 	}
 	if err := p.err(); err != nil {
 		return nil, err
@@ -253,13 +277,15 @@ func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
 }
 
 // readRecords reads the data rows after the header, skipping blank lines
-// and recording malformed rows in p, and hands each good row to fn with
-// its line number.
-func readRecords(r *csv.Reader, file string, fields int, p *problems, fn func(rec []string, line int)) {
+// and rows whose every cell is empty (it returns how many of those), and
+// recording malformed rows in p, and hands each good row to fn with its
+// line number. Up to trailing empty cells after the last named column are
+// dropped.
+func readRecords(r *csv.Reader, file string, fields, trailing int, p *problems, fn func(rec []string, line int)) (emptyRows int) {
 	for {
 		rec, err := r.Read()
 		if err == io.EOF {
-			return
+			return emptyRows
 		}
 		if err != nil {
 			line := 0
@@ -269,13 +295,20 @@ func readRecords(r *csv.Reader, file string, fields int, p *problems, fn func(re
 			}
 			p.addf(file, line, "%v", csvMsg(err))
 			if len(p.errs) >= maxReported {
-				return
+				return emptyRows
 			}
 			continue
 		}
 		line, _ := r.FieldPos(0)
 		if len(rec) == 1 && strings.TrimSpace(rec[0]) == "" {
 			continue // blank line
+		}
+		if !slices.ContainsFunc(rec, func(c string) bool { return strings.TrimSpace(c) != "" }) {
+			emptyRows++ // a row of empty cells, as spreadsheets save them
+			continue
+		}
+		for len(rec) > fields && len(rec) <= fields+trailing && strings.TrimSpace(rec[len(rec)-1]) == "" {
+			rec = rec[:len(rec)-1]
 		}
 		if len(rec) != fields {
 			p.addf(file, line, "expected %d fields as in the header, got %d", fields, len(rec))
@@ -389,6 +422,70 @@ func wideColumns(sp *Spec, file string, header []string, col map[string]int) ([]
 	return out, nil
 }
 
+// separator returns the field separator: the one data.separator names,
+// else a semicolon or tab when the header line has one of those but no
+// comma (as spreadsheets in many locales save "CSV" files).
+func separator(name string, raw []byte) rune {
+	switch name {
+	case "comma":
+		return ','
+	case "semicolon":
+		return ';'
+	case "tab":
+		return '\t'
+	}
+	head, _, _ := bytes.Cut(raw, []byte("\n"))
+	if !bytes.ContainsRune(head, ',') {
+		switch {
+		case bytes.ContainsRune(head, ';'):
+			return ';'
+		case bytes.ContainsRune(head, '\t'):
+			return '\t'
+		}
+	}
+	return ','
+}
+
+// wideHint says that long data probably meant wide data when the header
+// has columns named like outcome name plus occasion (mood_1, mood2).
+func wideHint(name string, header []string) string {
+	re := regexp.MustCompile(`^` + regexp.QuoteMeta(name) + `[_.\- ]?(w|t|wave|day)?[0-9]+$`)
+	var hits []string
+	for _, h := range header {
+		if re.MatchString(h) {
+			hits = append(hits, h)
+		}
+	}
+	if len(hits) < 2 {
+		return ""
+	}
+	return fmt.Sprintf(". Columns %s look like one column per occasion: if the file has one row per person, set data.layout: wide (and data.wide_columns if the names are not {outcome}_{occasion})", clip(hits, 4))
+}
+
+// dateLike matches occasion texts that look like dates or times.
+var dateLike = regexp.MustCompile(`^\d{1,4}[-/.]\d{1,2}[-/.]\d{1,4}|^\d{1,2}:\d{2}`)
+
+// commonMissing are texts that other programs and spreadsheets write for
+// a missing answer.
+var commonMissing = []string{"n/a", "na", ".", "-", "-9", "-99", "-999", "-9999", "nan", "null", "none", "missing", "?", "#n/a", "99", "999"}
+
+// missingHint suggests adding v to the missing codes when it is a common
+// missing-value text.
+func missingHint(v string) string {
+	if slices.Contains(commonMissing, strings.ToLower(v)) {
+		return fmt.Sprintf("; if %q means a missing answer, add it to data.missing_codes", v)
+	}
+	return ""
+}
+
+// clipCell shortens a cell's text for a message.
+func clipCell(v string) string {
+	if r := []rune(v); len(r) > 40 {
+		return string(r[:37]) + "..."
+	}
+	return v
+}
+
 func csvMsg(err error) string {
 	var pe *csv.ParseError
 	if errors.As(err, &pe) {
@@ -414,14 +511,23 @@ func resolveOutcome(sp *Spec, file string, o OutcomeSpec, rows []cellRow, k int)
 	p := &problems{}
 	switch {
 	case o.Type == Continuous:
+		sentinel := map[string]int{}
 		for _, r := range rows {
 			v := r.vals[k]
 			if v == "\x00" {
 				continue
 			}
+			if slices.Contains([]string{"-9", "-99", "-999", "-9999", "999", "9999"}, v) {
+				sentinel[v]++
+			}
 			f, err := strconv.ParseFloat(v, 64)
 			if err != nil || math.IsNaN(f) || math.IsInf(f, 0) {
-				p.addf(file, r.line, "outcome %q%s: %q is not a finite number (continuous outcome; missing cells may be %s)", o.Name, r.at(k), v, quoteList(sp.Data.Missing))
+				p.addf(file, r.line, "outcome %q%s: %q is not a finite number (continuous outcome; missing cells may be %s)%s", o.Name, r.at(k), clipCell(v), quoteList(sp.Data.Missing), missingHint(v))
+			}
+		}
+		for _, code := range []string{"-9", "-99", "-999", "-9999", "999", "9999"} {
+			if n := sentinel[code]; n > 0 {
+				out.Note = fmt.Sprintf("outcome %q: %s %s, a common missing-value code; if it means a missing answer, add it to data.missing_codes", o.Name, plural(n, "cell holds", "cells hold"), code)
 			}
 		}
 		return out, p.err()
@@ -429,7 +535,7 @@ func resolveOutcome(sp *Spec, file string, o OutcomeSpec, rows []cellRow, k int)
 		out.K, out.Codes = len(o.Labels), o.Labels
 		for _, r := range rows {
 			if v := r.vals[k]; v != "\x00" && !slices.Contains(o.Labels, v) {
-				p.addf(file, r.line, "outcome %q%s: %q is not one of the declared labels %s", o.Name, r.at(k), v, quoteList(o.Labels))
+				p.addf(file, r.line, "outcome %q%s: %q is not one of the declared labels %s%s", o.Name, r.at(k), clipCell(v), quoteList(o.Labels), missingHint(v))
 			}
 		}
 		return out, p.err()
@@ -449,7 +555,10 @@ func resolveOutcome(sp *Spec, file string, o OutcomeSpec, rows []cellRow, k int)
 			if o.Type == Binary {
 				hint = fmt.Sprintf("; for text answers declare labels, e.g. labels: [no, yes] (lower category first)")
 			}
-			p.addf(file, r.line, "outcome %q%s: %q is not a whole-number category code%s", o.Name, r.at(k), v, hint)
+			if h := missingHint(v); h != "" {
+				hint = h
+			}
+			p.addf(file, r.line, "outcome %q%s: %q is not a whole-number category code%s", o.Name, r.at(k), clipCell(v), hint)
 			continue
 		}
 		lo, hi = min(lo, c), max(hi, c)

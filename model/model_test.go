@@ -398,3 +398,58 @@ outcomes: [{name: a, type: binary}, {name: a1, type: binary}]
 		}
 	}
 }
+
+// TestSpreadsheetCSV: files as spreadsheets save them. Semicolon- and
+// tab-separated files are read (detected, or set by data.separator),
+// empty trailing columns and rows of empty cells are skipped with a note,
+// common missing-value texts get a hint, dates in the occasion column a
+// message that says what to do, a CSV given as the model file a short
+// message, and long data that is probably wide a hint at data.layout.
+func TestSpreadsheetCSV(t *testing.T) {
+	sp := mustSpec(t, strings.Replace(spec2, `labels: ["no", "yes"]`, "categories: 2", 1))
+	good := "who,wave,mood,sick\na,1,1,0\na,2,2,1\nb,1,3,0\nb,2,4,1\n"
+	for _, c := range []struct {
+		name, csv string
+		note      string
+	}{
+		{"semicolons", strings.ReplaceAll(good, ",", ";"), ""},
+		{"tabs", strings.ReplaceAll(good, ",", "\t"), ""},
+		{"trailing empty columns and rows", strings.ReplaceAll(good, "\n", ",,\n") + ",,,,,\n,,,,,\n", "2 empty columns without a name at the end of the header ignored"},
+	} {
+		pan, err := ParsePanel(sp, "d.csv", []byte(c.csv))
+		if err != nil {
+			t.Errorf("%s: %v", c.name, err)
+			continue
+		}
+		if len(pan.Persons) != 2 || pan.T() != 2 {
+			t.Errorf("%s: %d persons, %d occasions, want 2 and 2", c.name, len(pan.Persons), pan.T())
+		}
+		if notes := strings.Join(pan.Notes, " "); !strings.Contains(notes, c.note) || (c.note != "" && !strings.Contains(notes, "2 rows with every cell empty skipped")) {
+			t.Errorf("%s: notes %q", c.name, notes)
+		}
+	}
+	semi := mustSpec(t, strings.Replace(spec2, "occasion: wave}", "occasion: wave, separator: semicolon}", 1))
+	if _, err := ParsePanel(semi, "d.csv", []byte("who;wave;mood;sick\na;1;1;no\na;2;2;yes\nb;1;3;no\nb;2;4;yes\n")); err != nil {
+		t.Errorf("data.separator: semicolon: %v", err)
+	}
+	for _, c := range []struct{ name, csv, want string }{
+		{"n/a code", strings.Replace(good, "a,2,2,1", "a,2,n/a,1", 1), `if "n/a" means a missing answer, add it to data.missing_codes`},
+		{"dot code", strings.Replace(good, "a,2,2,1", "a,2,.,1", 1), `if "." means a missing answer`},
+		{"date occasions", strings.Replace(good, "a,1,", "a,2024-03-01,", 1), "looks like a date or time: recode it as a whole number of days"},
+		{"wide data read as long", "who,mood_1,mood_2,sick_1,sick_2\na,1,2,0,1\n", "set data.layout: wide"},
+	} {
+		_, err := ParsePanel(sp, "d.csv", []byte(c.csv))
+		if err == nil || !strings.Contains(err.Error(), c.want) {
+			t.Errorf("%s: err = %v, want %q", c.name, err, c.want)
+		}
+	}
+	cont := mustSpec(t, "data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: y, type: continuous}]\n")
+	pan, err := ParsePanel(cont, "d.csv", []byte("p,t,y\na,1,2.5\na,2,-99\nb,1,3.1\nb,2,-99\n"))
+	if err != nil || !strings.Contains(strings.Join(pan.Notes, " "), "2 cells hold -99, a common missing-value code") {
+		t.Errorf("-99 in a continuous outcome should be noted (err %v, notes %v)", err, pan.Notes)
+	}
+	_, err = ParseSpec("d.csv", []byte(good))
+	if err == nil || !strings.Contains(err.Error(), "is a data file, not a model file") || strings.Contains(err.Error(), "b,2,4,1") {
+		t.Errorf("a CSV as model file: %v", err)
+	}
+}

@@ -71,6 +71,9 @@ type DataSpec struct {
 	Person   string   // person column
 	Occasion string   // occasion column (integers; long layout)
 	Missing  []string // cell texts that mean missing
+	// Separator is the field separator by name (comma, semicolon, tab), or
+	// "" to detect it from the header line.
+	Separator string
 	// Wide is true for one row per person with one column per outcome and
 	// occasion (layout: wide). WideColumns is the pattern of those
 	// columns' names, with {outcome} and {occasion} in it.
@@ -148,12 +151,36 @@ type SamplerSpec struct {
 // schema lists the keys allowed at each level of the model file.
 var schema = map[string][]string{
 	"":                   {"data", "outcomes", "person_differences", "dynamics", "means", "sampler"},
-	"data":               {"csv", "person", "occasion", "missing_codes", "layout", "wide_columns"},
+	"data":               {"csv", "person", "occasion", "missing_codes", "separator", "layout", "wide_columns"},
 	"outcomes":           {"name", "type", "categories", "lowest", "labels", "empty_categories", "columns"},
 	"person_differences": {"random_intercepts"},
 	"dynamics":           {"lags", "residual_correlation", "over_time", "first_occasion"},
 	"means":              {"over_time", "anchor"},
 	"sampler":            {"chains", "warmup", "draws", "seed", "threshold_update", "until_converged", "max_draws", "path_moves", "checkpoint_every"},
+}
+
+// looksLikeCSV reports whether a would-be model file is a CSV: its first
+// line holds two or more commas (or semicolons) and no colon, and the
+// second line as many.
+func looksLikeCSV(raw []byte) bool {
+	lines := strings.SplitN(string(raw), "\n", 3)
+	if len(lines) < 2 || strings.Contains(lines[0], ":") {
+		return false
+	}
+	for _, sep := range []string{",", ";", "\t"} {
+		if n := strings.Count(lines[0], sep); n >= 2 && strings.Count(lines[1], sep) == n {
+			return true
+		}
+	}
+	return false
+}
+
+// clipText shortens s to at most n runes for a message.
+func clipText(s string, n int) string {
+	if r := []rune(s); len(r) > n {
+		return string(r[:n-3]) + "..."
+	}
+	return s
 }
 
 // renamedKeys maps keys of earlier model files (section.key) to their
@@ -182,6 +209,10 @@ func ReadSpec(path string) (*Spec, error) {
 // ParseSpec checks the model file content raw; path names it in messages and
 // anchors the relative data path.
 func ParseSpec(path string, raw []byte) (*Spec, error) {
+	if looksLikeCSV(raw) {
+		head, _, _ := strings.Cut(string(raw), "\n")
+		return nil, Inputf(path, 0, "is a data file, not a model file: its first line %q looks like a CSV header. Give the model file (YAML) and name this CSV in it under data.csv", clipText(strings.TrimSpace(head), 60))
+	}
 	var doc yaml.Node
 	if err := yaml.Unmarshal(raw, &doc); err != nil {
 		return nil, Inputf(path, 0, "not valid YAML: %s", strings.TrimPrefix(err.Error(), "yaml: "))
@@ -215,6 +246,11 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 		}
 		if v, ok := m["missing_codes"]; ok {
 			sp.Data.Missing = r.strList(v, "data.missing_codes")
+		}
+		if v, ok := m["separator"]; ok {
+			if c := r.choice(v, "data.separator", "auto", "comma", "semicolon", "tab"); c != "auto" {
+				sp.Data.Separator = c
+			}
 		}
 		if v, ok := m["layout"]; ok {
 			sp.Data.Wide = r.choice(v, "data.layout", "long", "wide") == "wide"
@@ -378,7 +414,7 @@ func (r *reader) mapping(n *yaml.Node, section string) map[string]*yaml.Node {
 		if where == "" {
 			where = "model file"
 		}
-		r.p.addf(r.file, n.Line, "%s: expected a set of keys, got %q", where, n.Value)
+		r.p.addf(r.file, n.Line, "%s: expected a set of keys, got %q", where, clipText(n.Value, 40))
 		return nil
 	}
 	allowed := r.schema[section]
