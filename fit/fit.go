@@ -31,8 +31,8 @@ type Options struct {
 	// DataPath, when set, replaces the model file's data.csv (e.g. a
 	// simulated panel fitted with the same model file).
 	DataPath string
-	ModelRaw  []byte
-	DataRaw   []byte
+	ModelRaw []byte
+	DataRaw  []byte
 
 	OutDir                string // "" writes no files
 	Chains, Warmup, Draws int    // 0: from the model file (Warmup: unless WarmupSet)
