@@ -2,6 +2,7 @@ package report
 
 import (
 	"fmt"
+	"maps"
 	"math"
 	"math/cmplx"
 	"slices"
@@ -78,13 +79,8 @@ func causeAdvice(l *sampler.Layout, bad []Entry) []string {
 			initial = initial || strings.HasPrefix(e.Kind, "initial_")
 		}
 	}
-	occs := make([]int, 0, len(byOcc))
-	for o := range byOcc {
-		occs = append(occs, o)
-	}
-	slices.Sort(occs)
 	var out []string
-	for _, o := range occs {
+	for _, o := range slices.Sorted(maps.Keys(byOcc)) {
 		t := slices.Index(l.Panel.Occasions, o)
 		msg := fmt.Sprintf("likely cause: %s %s on occasion %d, which only %d %s answered (against %d at the best-observed occasion); longer runs help little there",
 			strings.Join(byOcc[o], ", "), pick(len(byOcc[o]) == 1, "rests", "rest"), o, counts[t], pick(counts[t] == 1, "person", "persons"), best)
@@ -194,13 +190,8 @@ func explosive(l *sampler.Layout, es []Entry) []string {
 		}
 		mats[occ][idx[e.Outcome]*J+idx[from]] = float64(e.Mean)
 	}
-	occs := make([]int, 0, len(mats))
-	for o := range mats {
-		occs = append(occs, o)
-	}
-	slices.Sort(occs)
 	var out []string
-	for _, o := range occs {
+	for _, o := range slices.Sorted(maps.Keys(mats)) {
 		var eig mat.Eigen
 		if !eig.Factorize(mat.NewDense(J, J, mats[o]), mat.EigenNone) {
 			continue
