@@ -30,8 +30,8 @@ var key = map[string]bool{"transition": true, "lag2_transition": true, "person_t
 func WriteTable(w io.Writer, r *Result) error {
 	var b strings.Builder
 	fmt.Fprintf(&b, "Posterior predictive checks: %d statistics, %d replicated data sets (new random intercepts and within paths)\n\n", len(r.Stats), r.Draws)
-	if note := diagnostics.UnconvergedNote(r.Unconverged); note != "" {
-		fmt.Fprintf(&b, "Warning: the checked run is %s\n\n", strings.Replace(note, "Do not report these results", "Its predictive checks describe draws that have not settled", 1))
+	if note := diagnostics.UnconvergedNote(r.Unconverged, "Its predictive checks describe draws that have not settled"); note != "" {
+		fmt.Fprintf(&b, "Warning: the checked run is %s\n\n", note)
 	}
 	fmt.Fprintf(&b, "  %-40s %10s %22s\n", "statistic", "checked", "p outside (0.05,0.95)")
 	for _, k := range kindOrder {

@@ -130,8 +130,8 @@ func WriteTable(w io.Writer, rs []ModelResult) error {
 	}
 	fmt.Fprintf(&b, "Person-level predictive accuracy (random intercepts and within paths integrated out by GHK)\n\n")
 	for _, r := range rs {
-		if note := diagnostics.UnconvergedNote(r.Unconverged); note != "" {
-			fmt.Fprintf(&b, "Warning: model %s is %s\n\n", r.Name, strings.Replace(note, "Do not report these results", "Its elpd is not reliable and the ranking may change", 1))
+		if note := diagnostics.UnconvergedNote(r.Unconverged, "Its elpd is not reliable and the ranking may change"); note != "" {
+			fmt.Fprintf(&b, "Warning: model %s is %s\n\n", r.Name, note)
 		}
 	}
 	fmt.Fprintf(&b, "  %-*s %10s %8s %10s %8s %7s %10s %8s %7s\n", width, "model", "elpd_loo", "se", "elpd_diff", "se_diff", "p_loo", "elpd_waic", "se", "max k")
@@ -142,7 +142,7 @@ func WriteTable(w io.Writer, rs []ModelResult) error {
 		if math.IsInf(float64(r.MaxK), 1) {
 			fmt.Fprintf(&b, "\nWarning: %s: too few draws to fit the Pareto tail; use more --draws.\n", r.Name)
 		} else if r.HighK > 0 {
-			fmt.Fprintf(&b, "\nWarning: %s: %d %s with Pareto k above 0.7; their leave-one-out estimates are unreliable (refit without them, or use more draws).\n", r.Name, r.HighK, map[bool]string{true: "person", false: "persons"}[r.HighK == 1])
+			fmt.Fprintf(&b, "\nWarning: %s: %d %s with Pareto k above 0.7; their leave-one-out estimates are unreliable (refit without them, or use more draws).\n", r.Name, r.HighK, persons(r.HighK))
 		}
 		if r.GHKRelSE > 0.05 {
 			fmt.Fprintf(&b, "\nWarning: %s: the GHK likelihoods have a median relative Monte Carlo error of %.2g; raise --ghk-points.\n", r.Name, r.GHKRelSE)
@@ -164,4 +164,12 @@ func (n jsonNum) MarshalJSON() ([]byte, error) {
 		return []byte("null"), nil
 	}
 	return []byte(strconv.FormatFloat(f, 'g', 10, 64)), nil
+}
+
+// persons is "person" for 1, else "persons".
+func persons(n int) string {
+	if n == 1 {
+		return "person"
+	}
+	return "persons"
 }

@@ -348,11 +348,12 @@ func Summarize(chains [][]float64, level float64) Summary {
 	return out
 }
 
-// UnconvergedNote is the plain statement printed under every table made
+// UnconvergedNote is the plain statement printed with every output made
 // from a run whose parameters names failed the convergence rule (R-hat <=
 // 1.01, bulk- and tail-ESS >= 400), "" when names is empty. At most six
-// names are listed.
-func UnconvergedNote(names []string) string {
+// names are listed; consequence says what follows for that output (e.g.
+// "Do not report these results"), and the advice to run longer ends it.
+func UnconvergedNote(names []string, consequence string) string {
 	if len(names) == 0 {
 		return ""
 	}
@@ -365,6 +366,6 @@ func UnconvergedNote(names []string) string {
 	if len(names) == 1 {
 		what = "parameter fails"
 	}
-	return fmt.Sprintf("NOT CONVERGED: %d %s the convergence rule (R-hat <= 1.01, bulk- and tail-ESS >= 400): %s%s. Do not report these results; run the fit longer (lagstar fit --until-converged) first.",
-		len(names), what, strings.Join(list, ", "), more)
+	return fmt.Sprintf("NOT CONVERGED: %d %s the convergence rule (R-hat <= 1.01, bulk- and tail-ESS >= 400): %s%s. %s; run the fit longer (lagstar fit --until-converged) first.",
+		len(names), what, strings.Join(list, ", "), more, consequence)
 }

@@ -18,7 +18,7 @@ import (
 // removed when a run is overwritten: a file of the user's that happens to
 // sit in the folder is left alone.
 var (
-	runFiles    = []string{"summary.json", "draws.csv", "run.json", "data.csv", "check.json", "report.html", lockFile}
+	runFiles    = []string{"summary.json", "draws.csv", "run.json", "data.csv", "check.json", "report.html"}
 	runPatterns = []string{"check_*.png", ".*.tmp*"}
 )
 
@@ -77,9 +77,7 @@ func inspectOut(dir string) (runState, *report.RunRecord, error) {
 func clearRun(dir string) error {
 	var names []string
 	for _, n := range runFiles {
-		if n != lockFile {
-			names = append(names, filepath.Join(dir, n))
-		}
+		names = append(names, filepath.Join(dir, n))
 	}
 	for _, pat := range runPatterns {
 		m, err := filepath.Glob(filepath.Join(dir, pat))
@@ -98,10 +96,8 @@ func clearRun(dir string) error {
 		}
 	}
 	// The checkpoint folder goes too when nothing else is in it.
-	if err := os.Remove(filepath.Join(dir, checkpointDir)); err != nil && !errors.Is(err, os.ErrNotExist) {
-		if entries, rerr := os.ReadDir(filepath.Join(dir, checkpointDir)); rerr != nil || len(entries) == 0 {
-			return err
-		}
+	if entries, err := os.ReadDir(filepath.Join(dir, checkpointDir)); err == nil && len(entries) == 0 {
+		return os.Remove(filepath.Join(dir, checkpointDir))
 	}
 	return nil
 }

@@ -74,6 +74,21 @@ func (p *Panel) ObservedAt(j int) []int {
 	return n
 }
 
+// AnsweredAt returns the number of persons with an observed value of any
+// outcome at each grid occasion.
+func (p *Panel) AnsweredAt() []int {
+	J := p.J()
+	n := make([]int, p.T())
+	for i := range p.Persons {
+		for t := 0; t < p.Len[i]; t++ {
+			if slices.ContainsFunc(p.Y[p.Offset[i]+t*J:p.Offset[i]+(t+1)*J], func(v float64) bool { return v == v }) {
+				n[t]++
+			}
+		}
+	}
+	return n
+}
+
 // CellOf returns the person, grid occasion and outcome of cell c of Y.
 func (p *Panel) CellOf(c int) (i, t, j int) {
 	i = sort.SearchInts(p.Offset, c+1) - 1
@@ -469,6 +484,10 @@ var dateLike = regexp.MustCompile(`^\d{1,4}[-/.]\d{1,2}[-/.]\d{1,4}|^\d{1,2}:\d{
 // a missing answer.
 var commonMissing = []string{"n/a", "na", ".", "-", "-9", "-99", "-999", "-9999", "nan", "null", "none", "missing", "?", "#n/a", "99", "999"}
 
+// numericMissing are the numbers among them that a continuous outcome
+// would read as values.
+var numericMissing = []string{"-9", "-99", "-999", "-9999", "999", "9999"}
+
 // missingHint suggests adding v to the missing codes when it is a common
 // missing-value text.
 func missingHint(v string) string {
@@ -511,13 +530,13 @@ func resolveOutcome(sp *Spec, file string, o OutcomeSpec, rows []cellRow, k int)
 	p := &problems{}
 	switch {
 	case o.Type == Continuous:
-		sentinel := map[string]int{}
+		sentinel := map[string]int{} // numbers that are common missing-value codes
 		for _, r := range rows {
 			v := r.vals[k]
 			if v == "\x00" {
 				continue
 			}
-			if slices.Contains([]string{"-9", "-99", "-999", "-9999", "999", "9999"}, v) {
+			if slices.Contains(numericMissing, v) {
 				sentinel[v]++
 			}
 			f, err := strconv.ParseFloat(v, 64)
@@ -525,7 +544,7 @@ func resolveOutcome(sp *Spec, file string, o OutcomeSpec, rows []cellRow, k int)
 				p.addf(file, r.line, "outcome %q%s: %q is not a finite number (continuous outcome; missing cells may be %s)%s", o.Name, r.at(k), clipCell(v), quoteList(sp.Data.Missing), missingHint(v))
 			}
 		}
-		for _, code := range []string{"-9", "-99", "-999", "-9999", "999", "9999"} {
+		for _, code := range numericMissing {
 			if n := sentinel[code]; n > 0 {
 				out.Note = fmt.Sprintf("outcome %q: %s %s, a common missing-value code; if it means a missing answer, add it to data.missing_codes", o.Name, plural(n, "cell holds", "cells hold"), code)
 			}

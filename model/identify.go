@@ -30,13 +30,9 @@ func Identify(sp *Spec, pan *Panel) error {
 	f := sp.Path
 	if sp.Within.PathsFree && T > 1 {
 		var empty []string
-		for t, occ := range pan.Occasions {
-			seen := false
-			for j := 0; j < J && !seen; j++ {
-				seen = pan.ObservedAt(j)[t] > 0
-			}
-			if !seen {
-				empty = append(empty, strconv.Itoa(occ))
+		for t, n := range pan.AnsweredAt() {
+			if n == 0 {
+				empty = append(empty, strconv.Itoa(pan.Occasions[t]))
 			}
 		}
 		if len(empty) > 0 {

@@ -448,6 +448,10 @@ func TestSpreadsheetCSV(t *testing.T) {
 	if err != nil || !strings.Contains(strings.Join(pan.Notes, " "), "2 cells hold -99, a common missing-value code") {
 		t.Errorf("-99 in a continuous outcome should be noted (err %v, notes %v)", err, pan.Notes)
 	}
+	// A model file whose first lines are comments with commas is still YAML.
+	if _, err := ParseSpec("m.yaml", []byte("# mood, pain, sleep\n# by A, B, C\n"+spec2)); err != nil {
+		t.Errorf("a model file opening with comments: %v", err)
+	}
 	_, err = ParseSpec("d.csv", []byte(good))
 	if err == nil || !strings.Contains(err.Error(), "is a data file, not a model file") || strings.Contains(err.Error(), "b,2,4,1") {
 		t.Errorf("a CSV as model file: %v", err)

@@ -160,11 +160,11 @@ var schema = map[string][]string{
 }
 
 // looksLikeCSV reports whether a would-be model file is a CSV: its first
-// line holds two or more commas (or semicolons) and no colon, and the
-// second line as many.
+// line holds two or more commas (semicolons, tabs) and no colon and is no
+// YAML comment, and the second line as many.
 func looksLikeCSV(raw []byte) bool {
 	lines := strings.SplitN(string(raw), "\n", 3)
-	if len(lines) < 2 || strings.Contains(lines[0], ":") {
+	if len(lines) < 2 || strings.Contains(lines[0], ":") || strings.HasPrefix(strings.TrimSpace(lines[0]), "#") {
 		return false
 	}
 	for _, sep := range []string{",", ";", "\t"} {

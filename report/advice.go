@@ -23,24 +23,6 @@ const PriorRatioLimit = 0.5
 // which an occasion counts as sparse.
 const sparseShare = 0.5
 
-// occasionCounts returns, per grid occasion, the persons with any answer
-// there.
-func occasionCounts(l *sampler.Layout) []int {
-	n := make([]int, l.T)
-	pan := l.Panel
-	for i := range pan.Persons {
-		for t := 0; t < pan.Len[i]; t++ {
-			for j := 0; j < l.J; j++ {
-				if v := pan.Y[pan.Offset[i]+t*l.J+j]; v == v {
-					n[t]++
-					break
-				}
-			}
-		}
-	}
-	return n
-}
-
 // sparseCause names the sparse occasion an entry rests on ("" when it
 // rests on no single occasion, or on a well-observed one): the occasion
 // of an occasion-specific parameter, the first occasion for the first
@@ -69,7 +51,7 @@ func causeAdvice(l *sampler.Layout, bad []Entry) []string {
 	if l == nil {
 		return nil
 	}
-	counts := occasionCounts(l)
+	counts := l.Panel.AnsweredAt()
 	best := slices.Max(counts)
 	byOcc := map[int][]string{}
 	initial := false
@@ -118,9 +100,6 @@ func priorInterval(l *sampler.Layout, e Entry, level float64) (lo, hi float64, l
 		}
 		return -z * pr.PathSD * f, z * pr.PathSD * f, false, true
 	case "ri_variance":
-		if !l.RI {
-			return 0, 0, false, false
-		}
 		// The diagonal of an inverse-Wishart(J + d, s I) is
 		// inverse-gamma((d + 1)/2, s/2): s/2 over a Gamma((d + 1)/2, 1).
 		g := distuv.Gamma{Alpha: (pr.RIDfExtra + 1) / 2, Beta: 1}

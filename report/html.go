@@ -63,7 +63,7 @@ img{max-width:100%}.alarm{background:#b00020;color:#fff;padding:.8em 1em;font-we
 	if !s.Complete {
 		fmt.Fprintf(&b, `<p class="alarm">This run was interrupted: its draws are incomplete. Finish it with lagstar fit --resume before reading anything here.</p>`)
 	}
-	if note := diagnostics.UnconvergedNote(s.Unconverged); note != "" {
+	if note := diagnostics.UnconvergedNote(s.Unconverged, "Do not report these results"); note != "" {
 		fmt.Fprintf(&b, `<p class="alarm">%s Rows of these parameters are marked red below.</p>`, esc(note))
 	}
 	fmt.Fprintf(&b, `<p class="caution">%s</p>`, esc(Caution))
@@ -71,7 +71,7 @@ img{max-width:100%}.alarm{background:#b00020;color:#fff;padding:.8em 1em;font-we
 	b.WriteString("<h2>Model and data</h2><ul>")
 	fmt.Fprintf(&b, "<li>Data: %s, %d rows, %d persons, %d occasions (%s)</li>", esc(m.DataFile), m.Rows, m.Persons, len(m.Occasions), esc(occasionRange(m.Occasions)))
 	for _, o := range m.Outcomes {
-		fmt.Fprintf(&b, "<li>Outcome %s</li>", esc(strings.TrimSpace(OutcomeLine(o))))
+		fmt.Fprintf(&b, "<li>Outcome %s</li>", esc(OutcomeLine(o)))
 	}
 	fmt.Fprintf(&b, "<li>Random intercepts: %v; carry-over: %s; residual correlation: %v; paths over time: %s; first occasion: %s; means over time: %s</li>",
 		m.RandomIntercepts, esc(m.Lags), m.ResidualCorrelation, esc(m.PathsOverTime), esc(m.FirstOccasion), esc(m.MeansOverTime))

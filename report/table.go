@@ -45,7 +45,7 @@ func WriteTable(w io.Writer, s *Summary) error {
 	fmt.Fprintf(&b, "%s %s: %d persons, %d occasions, %d outcomes; %d chains x %d draws (seed %d), run %s\n",
 		s.Program, s.Version, s.Model.Persons, len(s.Model.Occasions), len(s.Model.Outcomes), s.Model.Chains, s.Model.Draws, s.Seed, status)
 	for _, o := range s.Model.Outcomes {
-		fmt.Fprintf(&b, "%s\n", OutcomeLine(o))
+		fmt.Fprintf(&b, "  %s\n", OutcomeLine(o))
 	}
 	if rl := s.RunLength; rl != nil {
 		verdict := "converged"
@@ -97,7 +97,7 @@ func WriteTable(w io.Writer, s *Summary) error {
 // observed and missing answers and the category counts.
 func OutcomeLine(o OutcomeInfo) string {
 	var b strings.Builder
-	fmt.Fprintf(&b, "  %s: %s", o.Name, o.Type)
+	fmt.Fprintf(&b, "%s: %s", o.Name, o.Type)
 	switch o.Type {
 	case "binary":
 		fmt.Fprintf(&b, ", %q is the upper category (its probability is modelled)", o.Highest)

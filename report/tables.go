@@ -259,7 +259,7 @@ func tableNote(s *Summary, ci string) string {
 		occ = fmt.Sprintf(" (%d to %d)", m.Occasions[0], m.Occasions[n-1])
 	}
 	conv := "All parameters met the convergence rule (R-hat <= 1.01, bulk- and tail-ESS >= 400)."
-	if note := diagnostics.UnconvergedNote(s.Unconverged); note != "" {
+	if note := diagnostics.UnconvergedNote(s.Unconverged, "Do not report these results"); note != "" {
 		conv = note
 	}
 	if !s.Complete {

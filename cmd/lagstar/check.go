@@ -39,7 +39,7 @@ check.json into the run folder.`,
 			if err != nil {
 				return err
 			}
-			if note := diagnostics.UnconvergedNote(res.Unconverged); note != "" {
+			if note := diagnostics.UnconvergedNote(res.Unconverged, "Its predictive checks describe draws that have not settled"); note != "" {
 				fmt.Fprintf(stderr, "warning: %s: %s\n", o.RunDir, note)
 			}
 			return check.WriteTable(stdout, res)

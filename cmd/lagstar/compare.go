@@ -39,7 +39,7 @@ standard errors. Continuous outcomes enter through their normal density.`,
 				return err
 			}
 			for _, r := range res {
-				if note := diagnostics.UnconvergedNote(r.Unconverged); note != "" {
+				if note := diagnostics.UnconvergedNote(r.Unconverged, "Its elpd is not reliable and the ranking may change"); note != "" {
 					fmt.Fprintf(stderr, "warning: model %s: %s\n", r.Name, note)
 				}
 			}

@@ -77,7 +77,7 @@ func warnUnfinished(stderr io.Writer, dir string, s *report.Summary) {
 	if !s.Complete {
 		fmt.Fprintf(stderr, "warning: %s: the run was interrupted and is incomplete; finish it with lagstar fit --resume %s\n", dir, dir)
 	}
-	if note := diagnostics.UnconvergedNote(s.Unconverged); note != "" {
+	if note := diagnostics.UnconvergedNote(s.Unconverged, "Do not report these results"); note != "" {
 		fmt.Fprintf(stderr, "warning: %s: %s\n", dir, note)
 	}
 }
