@@ -6,6 +6,7 @@ import (
 	"encoding/csv"
 	"encoding/hex"
 	"encoding/json"
+	"fmt"
 	"path/filepath"
 	"strconv"
 
@@ -48,26 +49,41 @@ func Check(o CheckOptions) (*check.Result, error) {
 	if err := report.WriteAtomic(filepath.Join(o.RunDir, "check.json"), append(out, '\n')); err != nil {
 		return nil, err
 	}
-	// One figure per kind of statistic: observed against replicated intervals.
+	// One figure per kind of statistic (observed against replicated
+	// intervals), on as many pages as it needs: check_KIND.png,
+	// check_KIND_2.png, ...
 	byKind := map[string][]report.PPCStat{}
 	var kinds []string
 	for _, st := range res.Stats {
 		if _, ok := byKind[st.Kind]; !ok {
 			kinds = append(kinds, st.Kind)
 		}
-		byKind[st.Kind] = append(byKind[st.Kind], report.PPCStat{Name: st.Name, Kind: st.Kind, Observed: st.Observed,
-			RepMean: st.RepMean, RepLow: st.RepLow, RepHigh: st.RepHigh, PPP: st.PPP})
+		byKind[st.Kind] = append(byKind[st.Kind], ppcStat(st))
 	}
 	for _, k := range kinds {
-		png, err := report.PPCPlotPNG(byKind[k])
+		pages, err := report.PPCPlotPages(byKind[k])
 		if err != nil {
 			return nil, err
 		}
-		if err := report.WriteAtomic(filepath.Join(o.RunDir, "check_"+k+".png"), png); err != nil {
-			return nil, err
+		for i, png := range pages {
+			name := "check_" + k + ".png"
+			if i > 0 {
+				name = fmt.Sprintf("check_%s_%d.png", k, i+1)
+			}
+			if err := report.WriteAtomic(filepath.Join(o.RunDir, name), png); err != nil {
+				return nil, err
+			}
 		}
 	}
 	return res, nil
+}
+
+// ppcStat carries a checked statistic into the report, with its kind's
+// description and unit.
+func ppcStat(st check.Stat) report.PPCStat {
+	title, unit := check.KindInfo(st.Kind)
+	return report.PPCStat{Name: st.Name, Kind: st.Kind, Title: title, Unit: unit, Observed: st.Observed,
+		RepMean: st.RepMean, RepLow: st.RepLow, RepHigh: st.RepHigh, PPP: st.PPP}
 }
 
 // finishedRun is a run folder read back: its layout (rebuilt from the

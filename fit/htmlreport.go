@@ -41,8 +41,7 @@ func HTMLReport(runDir string) (string, *report.Summary, error) {
 		for _, st := range res.Stats {
 			switch st.Kind {
 			case "transition", "lag2_transition", "person_transition", "run_length", "person_means", "lag1_correlation", "joint_share":
-				ppc = append(ppc, report.PPCStat{Name: st.Name, Kind: st.Kind, Observed: st.Observed, RepMean: st.RepMean,
-					RepLow: st.RepLow, RepHigh: st.RepHigh, PPP: st.PPP})
+				ppc = append(ppc, ppcStat(st))
 			}
 		}
 	}

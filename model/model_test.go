@@ -132,6 +132,13 @@ func TestOccasionSpacing(t *testing.T) {
 	}
 }
 
+func TestDisplayName(t *testing.T) {
+	sp := mustSpec(t, strings.Replace(spec2, "{name: mood, type: ordinal", `{name: mood, display_name: "Mood (1-4)", type: ordinal`, 1))
+	if sp.Outcomes[0].DisplayName != "Mood (1-4)" || sp.Outcomes[1].DisplayName != "" {
+		t.Errorf("display names %q, %q", sp.Outcomes[0].DisplayName, sp.Outcomes[1].DisplayName)
+	}
+}
+
 func TestPersonsSortedNumerically(t *testing.T) {
 	sp := mustSpec(t, strings.Replace(spec2, `labels: ["no", "yes"]`, "categories: 2", 1))
 	csv := "who,wave,mood,sick\n10,1,1,0\n9,1,2,1\n100,1,3,0\n9,2,4,0\n"

@@ -83,11 +83,14 @@ type DataSpec struct {
 
 // OutcomeSpec is one outcome as the model file declares it.
 type OutcomeSpec struct {
-	Name       string
-	Type       OutcomeType
-	Categories int      // 0: infer from the data
-	Lowest     *int     // code of the lowest category; nil: infer
-	Labels     []string // category labels, lowest first; nil: integer codes
+	Name string
+	// DisplayName is the outcome's name in manuscript tables, captions and
+	// the HTML report ("" : Name). Parameter names keep Name.
+	DisplayName string
+	Type        OutcomeType
+	Categories  int      // 0: infer from the data
+	Lowest      *int     // code of the lowest category; nil: infer
+	Labels      []string // category labels, lowest first; nil: integer codes
 	// MergeEmpty (empty_categories: merge) drops categories nobody used
 	// instead of refusing the data.
 	MergeEmpty bool
@@ -152,7 +155,7 @@ type SamplerSpec struct {
 var schema = map[string][]string{
 	"":                   {"data", "outcomes", "person_differences", "dynamics", "means", "sampler"},
 	"data":               {"csv", "person", "occasion", "missing_codes", "separator", "layout", "wide_columns"},
-	"outcomes":           {"name", "type", "categories", "lowest", "labels", "empty_categories", "columns"},
+	"outcomes":           {"name", "display_name", "type", "categories", "lowest", "labels", "empty_categories", "columns"},
 	"person_differences": {"random_intercepts"},
 	"dynamics":           {"lags", "residual_correlation", "over_time", "first_occasion"},
 	"means":              {"over_time", "anchor"},
@@ -511,6 +514,9 @@ func (r *reader) outcome(n *yaml.Node, i int) OutcomeSpec {
 	}
 	if o.Name != "" {
 		key = fmt.Sprintf("outcome %q", o.Name)
+	}
+	if v, ok := m["display_name"]; ok {
+		o.DisplayName = r.str(v, key+": display_name")
 	}
 	if v, ok := m["type"]; ok {
 		o.Type = OutcomeType(r.choice(v, key+": type", "ordinal", "binary", "continuous"))

@@ -25,9 +25,10 @@ type Draws struct {
 	Values [][][]float64
 }
 
-// PPCStat is one posterior predictive statistic for the report.
+// PPCStat is one posterior predictive statistic for the report; Title
+// and Unit describe its kind (for figure titles and axes).
 type PPCStat struct {
-	Name, Kind                              string
+	Name, Kind, Title, Unit                 string
 	Observed, RepMean, RepLow, RepHigh, PPP float64
 }
 
@@ -37,7 +38,8 @@ var chainColors = []color.Color{
 	color.RGBA{R: 148, G: 103, B: 189, A: 255}, color.RGBA{R: 140, G: 86, B: 75, A: 255},
 }
 
-// maxPanels caps the parameters drawn in one figure.
+// maxPanels is the most parameters drawn in one figure; more go into
+// further figures, never dropped.
 const maxPanels = 24
 
 // WriteHTML writes one self-contained HTML page (figures embedded as PNG, no
@@ -87,8 +89,16 @@ img{max-width:100%}.alarm{background:#b00020;color:#fff;padding:.8em 1em;font-we
 		}
 		b.WriteString("</ul>")
 	}
-	b.WriteString("<h2>Estimates</h2><table><tr><th>parameter</th><th>mean</th><th>sd</th><th>lower</th><th>upper</th><th>R-hat</th><th>bulk-ESS</th><th>tail-ESS</th></tr>")
 	tabled := append(append([]Entry{}, s.Parameters...), tableOnly(s.Derived)...)
+	level := 0.95
+	if len(tabled) > 0 {
+		level = float64(tabled[0].Level)
+	}
+	b.WriteString("<h2>Estimates</h2><table><tr>")
+	for _, c := range columnHeads(level) {
+		fmt.Fprintf(&b, "<th>%s</th>", esc(c))
+	}
+	b.WriteString("</tr>")
 	for _, e := range tabled {
 		cls := ""
 		if entryBad(e) {
@@ -104,26 +114,35 @@ img{max-width:100%}.alarm{background:#b00020;color:#fff;padding:.8em 1em;font-we
 			names = append(names, e.Name)
 		}
 	}
-	if len(names) > maxPanels {
-		names = names[:maxPanels]
-	}
 	for _, fig := range []struct {
-		title string
-		fn    func(*plot.Plot, []([]float64))
-	}{{"Trace plots (each chain in its own colour)", tracePanel}, {"Rank plots (ranks of all draws, one line per chain; flat lines mean the chains agree)", rankPanel}, {"Posterior densities", densityPanel}} {
-		png, err := gridPNG(names, d, fig.fn)
-		if err != nil {
-			return err
+		title, x, y string
+		fn          func(*plot.Plot, []([]float64))
+	}{
+		{"Trace plots: each parameter's kept draws, one colour per chain", "kept draw", "value", tracePanel},
+		{"Rank plots: ranks of all draws in 20 bins, one line per chain; flat, overlapping lines mean the chains agree", "rank bin", "draws", rankPanel},
+		{"Posterior densities: all chains' draws", "value", "density", densityPanel},
+	} {
+		fmt.Fprintf(&b, "<h2>%s</h2>", esc(fig.title))
+		for start := 0; start < len(names); start += maxPanels {
+			page := names[start:min(start+maxPanels, len(names))]
+			png, err := gridPNG(page, d, fig.x, fig.y, fig.fn)
+			if err != nil {
+				return err
+			}
+			fmt.Fprintf(&b, "<img class=\"figure\" alt=\"%s\" src=\"data:image/png;base64,%s\">", esc(fig.title), base64.StdEncoding.EncodeToString(png))
 		}
-		fmt.Fprintf(&b, "<h2>%s</h2><img class=\"figure\" alt=\"%s\" src=\"data:image/png;base64,%s\">", esc(fig.title), esc(fig.title), base64.StdEncoding.EncodeToString(png))
 	}
 	if ppc != nil {
 		b.WriteString("<h2>Posterior predictive checks</h2>")
-		png, err := PPCPlotPNG(ppc)
-		if err != nil {
-			return err
+		for _, group := range byKind(ppc) {
+			pages, err := PPCPlotPages(group)
+			if err != nil {
+				return err
+			}
+			for _, png := range pages {
+				fmt.Fprintf(&b, "<img class=\"figure\" alt=\"%s\" src=\"data:image/png;base64,%s\">", esc(group[0].Title), base64.StdEncoding.EncodeToString(png))
+			}
 		}
-		fmt.Fprintf(&b, "<img class=\"figure\" alt=\"posterior predictive checks\" src=\"data:image/png;base64,%s\">", base64.StdEncoding.EncodeToString(png))
 		b.WriteString("<table><tr><th>statistic</th><th>observed</th><th>replicated</th><th>90% lower</th><th>90% upper</th><th>p</th></tr>")
 		for _, p := range ppc {
 			cls := ""
@@ -141,8 +160,10 @@ img{max-width:100%}.alarm{background:#b00020;color:#fff;padding:.8em 1em;font-we
 	return err
 }
 
-// gridPNG draws one panel per name, filled by fn from the chains' draws.
-func gridPNG(names []string, d *Draws, fn func(*plot.Plot, [][]float64)) ([]byte, error) {
+// gridPNG draws one panel per name, filled by fn from the chains' draws,
+// with axis labels x and y; the first panel carries the legend of the
+// chains' colours.
+func gridPNG(names []string, d *Draws, x, y string, fn func(*plot.Plot, [][]float64)) ([]byte, error) {
 	if len(names) == 0 {
 		return nil, fmt.Errorf("report: nothing to plot")
 	}
@@ -160,13 +181,28 @@ func gridPNG(names []string, d *Draws, fn func(*plot.Plot, [][]float64)) ([]byte
 		}
 		p := plot.New()
 		p.Title.Text = name
-		p.Title.TextStyle.Font.Size = vg.Points(8)
-		p.X.Tick.Label.Font.Size = vg.Points(6)
-		p.Y.Tick.Label.Font.Size = vg.Points(6)
+		p.Title.TextStyle.Font.Size = vg.Points(9)
+		p.X.Label.Text, p.Y.Label.Text = x, y
+		p.X.Label.TextStyle.Font.Size = vg.Points(7)
+		p.Y.Label.TextStyle.Font.Size = vg.Points(7)
+		p.X.Tick.Label.Font.Size = vg.Points(7)
+		p.Y.Tick.Label.Font.Size = vg.Points(7)
 		fn(p, chains)
+		if q == 0 && len(chains) > 1 {
+			for c := range chains {
+				sw, err := plotter.NewLine(plotter.XYs{{X: 0, Y: 0}})
+				if err == nil {
+					sw.Color = chainColors[c%len(chainColors)]
+					sw.Width = vg.Points(2)
+					p.Legend.Add(fmt.Sprintf("chain %d", c+1), sw)
+				}
+			}
+			p.Legend.Top = true
+			p.Legend.TextStyle.Font.Size = vg.Points(6)
+		}
 		plots[q/cols][q%cols] = p
 	}
-	img := vgimg.New(vg.Points(200*float64(cols)), vg.Points(140*float64(rows)))
+	img := vgimg.New(vg.Points(230*float64(cols)), vg.Points(170*float64(rows)))
 	drawGrid(plots, draw.New(img))
 	var buf bytes.Buffer
 	_, err := vgimg.PngCanvas{Canvas: img}.WriteTo(&buf)
@@ -227,42 +263,97 @@ func densityPanel(p *plot.Plot, chains [][]float64) {
 	}
 }
 
-// PPCPlotPNG draws, for each statistic (the first 60), the replicated 90%
-// interval and the observed value (a dot; red when its p-value is outside
-// (0.05, 0.95)), as a PNG.
-func PPCPlotPNG(stats []PPCStat) ([]byte, error) {
-	if len(stats) > 60 {
-		stats = stats[:60]
-	}
-	p := plot.New()
-	p.Title.Text = "Observed (dots) against replicated 90% intervals"
-	p.X.Tick.Label.Rotation = math.Pi / 2
-	p.X.Tick.Label.XAlign = draw.XRight
-	p.X.Tick.Label.Font.Size = vg.Points(6)
-	names := make([]string, len(stats))
-	for k, s := range stats {
-		names[k] = s.Name
-		lo, hi := s.RepLow, s.RepHigh
-		bar, err := plotter.NewLine(plotter.XYs{{X: float64(k), Y: lo}, {X: float64(k), Y: hi}})
+// PPCPerPage is the most statistics drawn in one predictive-check
+// figure; more go on further pages, never dropped.
+const PPCPerPage = 40
+
+// PPCPlotPages draws statistics of one kind, each as the replicated 90%
+// interval (a bar) and the observed value (a dot; red when its p-value is
+// outside (0.05, 0.95)), PPCPerPage to a PNG page, with a title naming
+// the kind (its Title, and the page when there are several), axis labels
+// (statistic; the kind's Unit) and a legend.
+func PPCPlotPages(stats []PPCStat) ([][]byte, error) {
+	var pages [][]byte
+	n := (len(stats) + PPCPerPage - 1) / PPCPerPage
+	for k := 0; k < n; k++ {
+		page := stats[k*PPCPerPage : min((k+1)*PPCPerPage, len(stats))]
+		title := page[0].Title
+		if title == "" {
+			title = page[0].Kind
+		}
+		title = strings.ToUpper(title[:1]) + title[1:]
+		title += ": observed against replicated 90% intervals"
+		if n > 1 {
+			title += fmt.Sprintf(" (page %d of %d)", k+1, n)
+		}
+		png, err := ppcPage(title, page)
 		if err != nil {
 			return nil, err
 		}
-		bar.Width = vg.Points(3)
+		pages = append(pages, png)
+	}
+	return pages, nil
+}
+
+func ppcPage(title string, stats []PPCStat) ([]byte, error) {
+	p := plot.New()
+	p.Title.Text = title
+	p.X.Label.Text = "statistic"
+	p.Y.Label.Text = stats[0].Unit
+	if p.Y.Label.Text == "" {
+		p.Y.Label.Text = "value"
+	}
+	p.X.Tick.Label.Rotation = math.Pi / 2
+	p.X.Tick.Label.XAlign = draw.XRight
+	p.X.Tick.Label.Font.Size = vg.Points(8)
+	p.Y.Tick.Label.Font.Size = vg.Points(8)
+	names := make([]string, len(stats))
+	var seenBar, seenDot, seenRed bool
+	for k, s := range stats {
+		names[k] = s.Name
+		bar, err := plotter.NewLine(plotter.XYs{{X: float64(k), Y: s.RepLow}, {X: float64(k), Y: s.RepHigh}})
+		if err != nil {
+			return nil, err
+		}
+		bar.Width = vg.Points(4)
 		bar.Color = color.RGBA{R: 150, G: 170, B: 210, A: 255}
 		p.Add(bar)
 		dot, err := plotter.NewScatter(plotter.XYs{{X: float64(k), Y: s.Observed}})
 		if err != nil {
 			return nil, err
 		}
+		dot.GlyphStyle.Radius = vg.Points(2.5)
 		dot.Color = color.Black
-		if s.PPP < 0.05 || s.PPP > 0.95 {
+		red := s.PPP < 0.05 || s.PPP > 0.95
+		if red {
 			dot.Color = color.RGBA{R: 210, A: 255}
 		}
 		p.Add(dot)
+		if !seenBar {
+			p.Legend.Add("replicated 90% interval", bar)
+			seenBar = true
+		}
+		if red && !seenRed {
+			p.Legend.Add("observed, p outside (0.05, 0.95)", dot)
+			seenRed = true
+		} else if !red && !seenDot {
+			p.Legend.Add("observed", dot)
+			seenDot = true
+		}
 	}
+	// Headroom above the data for the legend.
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for _, s := range stats {
+		lo, hi = min(lo, s.RepLow, s.Observed), max(hi, s.RepHigh, s.Observed)
+	}
+	if hi > lo {
+		p.Y.Min, p.Y.Max = lo-0.05*(hi-lo), hi+0.25*(hi-lo)
+	}
+	p.Legend.Top = true
+	p.Legend.TextStyle.Font.Size = vg.Points(8)
 	p.NominalX(names...)
 	var buf bytes.Buffer
-	wt, err := p.WriterTo(vg.Points(math.Max(400, 14*float64(len(stats)))), vg.Points(320), "png")
+	wt, err := p.WriterTo(vg.Points(math.Max(480, 16*float64(len(stats)))), vg.Points(380), "png")
 	if err != nil {
 		return nil, err
 	}
@@ -285,4 +376,23 @@ func occasionRange(occ []int) string {
 		return fmt.Sprintf("%d to %d by %d", occ[0], occ[len(occ)-1], step)
 	}
 	return fmt.Sprintf("%d to %d", occ[0], occ[len(occ)-1])
+}
+
+// byKind splits statistics into runs of one kind, in order of first
+// appearance, so that shares, run lengths and correlations never share
+// an axis.
+func byKind(stats []PPCStat) [][]PPCStat {
+	var order []string
+	groups := map[string][]PPCStat{}
+	for _, s := range stats {
+		if _, ok := groups[s.Kind]; !ok {
+			order = append(order, s.Kind)
+		}
+		groups[s.Kind] = append(groups[s.Kind], s)
+	}
+	out := make([][]PPCStat, len(order))
+	for i, k := range order {
+		out[i] = groups[k]
+	}
+	return out
 }

@@ -5,6 +5,8 @@ import (
 	"context"
 	"encoding/csv"
 	"encoding/json"
+	"fmt"
+	"image/png"
 	"math"
 	"strings"
 	"testing"
@@ -266,5 +268,77 @@ func TestPriorDominatedAndExplosive(t *testing.T) {
 	es[2].Mean = 0.5
 	if w := explosive(l, es); len(w) != 0 {
 		t.Errorf("stable carry-over warned about: %q", w)
+	}
+}
+
+// TestDisplayNamesAndColumns: outcomes' display names label the
+// manuscript rows and the caption (parameter names keep the column
+// names), and the HTML report's estimate columns are the terminal's.
+func TestDisplayNamesAndColumns(t *testing.T) {
+	res := shortRun(t, 30)
+	s := Build(res, 0.9, "test")
+	s.Model.Outcomes[0].DisplayName = "How rested"
+	var tex, md bytes.Buffer
+	if err := WriteManuscriptTable(&md, s, "md"); err != nil {
+		t.Fatal(err)
+	}
+	if err := WriteManuscriptTable(&tex, s, "latex"); err != nil {
+		t.Fatal(err)
+	}
+	for _, want := range []string{"| How rested, threshold 1 |", "| headache → How rested, cross-lag |", "| How rested & headache, random-intercept correlation |"} {
+		if !strings.Contains(md.String(), want) {
+			t.Errorf("markdown lacks %q:\n%s", want, md.String())
+		}
+	}
+	if !strings.Contains(tex.String(), `\caption{Random-intercept cross-lagged model of How rested and headache`) {
+		t.Errorf("latex caption should use the display name:\n%s", tex.String())
+	}
+	var term, page bytes.Buffer
+	WriteTable(&term, s)
+	if err := WriteHTML(&page, s, &Draws{Names: []string{"threshold[rested,1]"}, Values: [][][]float64{{{1, 2, 3}}}}, nil); err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range columnHeads(0.9) {
+		if !strings.Contains(term.String(), c) || !strings.Contains(page.String(), "<th>"+c+"</th>") {
+			t.Errorf("column %q should head both the terminal table and the HTML table", c)
+		}
+	}
+}
+
+// TestFiguresArePagedNotCut: predictive-check figures and parameter
+// figures put every statistic and parameter on some page; none is
+// dropped.
+func TestFiguresArePagedNotCut(t *testing.T) {
+	stats := make([]PPCStat, 2*PPCPerPage+5)
+	for i := range stats {
+		stats[i] = PPCStat{Name: fmt.Sprintf("share[y=%d]", i), Kind: "category_share", Title: "category shares per occasion", Unit: "share of answers", Observed: 0.3, RepLow: 0.2, RepHigh: 0.4, PPP: 0.5}
+	}
+	pages, err := PPCPlotPages(stats)
+	if err != nil || len(pages) != 3 {
+		t.Fatalf("PPCPlotPages(%d stats) = %d pages (err %v), want 3", len(stats), len(pages), err)
+	}
+	for i, p := range pages {
+		if _, err := png.Decode(bytes.NewReader(p)); err != nil {
+			t.Errorf("page %d is not a PNG: %v", i+1, err)
+		}
+	}
+	if got := byKind([]PPCStat{{Kind: "a"}, {Kind: "b"}, {Kind: "a"}}); len(got) != 2 || len(got[0]) != 2 {
+		t.Errorf("byKind grouped %v, want two groups, the first of two", got)
+	}
+	n := maxPanels + 6
+	s := &Summary{Complete: true, Converged: true}
+	d := &Draws{Values: [][][]float64{make([][]float64, n)}}
+	for i := range n {
+		name := fmt.Sprintf("p%d", i)
+		s.Parameters = append(s.Parameters, Entry{Name: name, Kind: "threshold", Level: 0.95})
+		d.Names = append(d.Names, name)
+		d.Values[0][i] = []float64{0, 1, 2, 1}
+	}
+	var page bytes.Buffer
+	if err := WriteHTML(&page, s, d, nil); err != nil {
+		t.Fatal(err)
+	}
+	if got := strings.Count(page.String(), `<img class="figure"`); got != 6 {
+		t.Errorf("%d parameters gave %d figures, want 2 pages for each of trace, rank and density", n, got)
 	}
 }

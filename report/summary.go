@@ -61,13 +61,16 @@ type Entry struct {
 // probability is modelled), how many answers were observed and missing
 // on the persons' occasions, and how often each category was given.
 type OutcomeInfo struct {
-	Name       string   `json:"name"`
-	Type       string   `json:"type"`
-	Categories []string `json:"categories,omitempty"`
-	Highest    string   `json:"highest_category,omitempty"`
-	Observed   int      `json:"observed"`
-	Missing    int      `json:"missing"`
-	Counts     []int    `json:"category_counts,omitempty"`
+	Name string `json:"name"`
+	// DisplayName is the name tables and the report show (display_name in
+	// the model file; omitted when not given).
+	DisplayName string   `json:"display_name,omitempty"`
+	Type        string   `json:"type"`
+	Categories  []string `json:"categories,omitempty"`
+	Highest     string   `json:"highest_category,omitempty"`
+	Observed    int      `json:"observed"`
+	Missing     int      `json:"missing"`
+	Counts      []int    `json:"category_counts,omitempty"`
 }
 
 // ModelInfo describes the fitted model and data.
@@ -224,7 +227,7 @@ func Build(res *sampler.Result, level float64, version string) *Summary {
 func outcomeInfo(l *sampler.Layout, j int) OutcomeInfo {
 	pan := l.Panel
 	o := pan.Outcomes[j]
-	info := OutcomeInfo{Name: o.Name, Type: string(o.Type), Categories: o.Codes}
+	info := OutcomeInfo{Name: o.Name, DisplayName: l.Spec.Outcomes[j].DisplayName, Type: string(o.Type), Categories: o.Codes}
 	if o.K > 0 {
 		info.Highest = o.Codes[o.K-1]
 		info.Counts = make([]int, o.K)

@@ -32,8 +32,7 @@ func WriteTable(w io.Writer, s *Summary) error {
 	if len(all) > 0 {
 		level = float64(all[0].Level)
 	}
-	lo := fmt.Sprintf("%.3g%%", 100*(1-level)/2)
-	hi := fmt.Sprintf("%.3g%%", 100*(1-(1-level)/2))
+	cols := columnHeads(level)
 	var b strings.Builder
 	status := "complete"
 	switch {
@@ -54,7 +53,7 @@ func WriteTable(w io.Writer, s *Summary) error {
 		}
 		fmt.Fprintf(&b, "run until converged: %d %s, %d draws per chain (cap %d), %s\n", rl.Rounds, pick(rl.Rounds == 1, "round", "rounds"), rl.DrawsPerChain, rl.MaxDraws, verdict)
 	}
-	head := fmt.Sprintf("  %-*s %9s %8s %9s %9s %7s %8s %8s\n", width, "parameter", "mean", "sd", lo, hi, "R-hat", "ESS-bulk", "ESS-tail")
+	head := fmt.Sprintf("  %-*s %9s %8s %9s %9s %7s %8s %8s\n", width, cols[0], cols[1], cols[2], cols[3], cols[4], cols[5], cols[6], cols[7])
 	for _, g := range tableGroups {
 		var rows []Entry
 		for _, e := range all {
@@ -92,12 +91,21 @@ func WriteTable(w io.Writer, s *Summary) error {
 	return err
 }
 
+// columnHeads are the column labels of the estimates table, the same in
+// the terminal and the HTML report.
+func columnHeads(level float64) []string {
+	return []string{"parameter", "mean", "sd", fmt.Sprintf("%.3g%%", 100*(1-level)/2), fmt.Sprintf("%.3g%%", 100*(1-(1-level)/2)), "R-hat", "ESS-bulk", "ESS-tail"}
+}
+
 // OutcomeLine describes an outcome's coding and answers in one line:
 // which category is highest (for binary outcomes, the one modelled),
 // observed and missing answers and the category counts.
 func OutcomeLine(o OutcomeInfo) string {
 	var b strings.Builder
 	fmt.Fprintf(&b, "%s: %s", o.Name, o.Type)
+	if o.DisplayName != "" {
+		fmt.Fprintf(&b, " (%q in tables)", o.DisplayName)
+	}
 	switch o.Type {
 	case "binary":
 		fmt.Fprintf(&b, ", %q is the upper category (its probability is modelled)", o.Highest)

@@ -92,6 +92,7 @@ type tableRow struct {
 // variances and correlations, autoregressions and cross-lags (raw and
 // within-person standardized), innovation correlations and ICCs.
 func manuscriptRows(s *Summary) []tableRow {
+	label := labeler(s)
 	std := map[string]*Entry{}
 	for i := range s.Derived {
 		e := &s.Derived[i]
@@ -129,6 +130,38 @@ func occ(o *int) string {
 		return ""
 	}
 	return fmt.Sprint(*o)
+}
+
+// labeler returns the function that renders an entry in words for a
+// manuscript, outcomes by their display names.
+func labeler(s *Summary) func(e *Entry) string {
+	show := map[string]string{}
+	for _, o := range s.Model.Outcomes {
+		show[o.Name] = displayName(o)
+	}
+	name := func(n string) string {
+		if d, ok := show[n]; ok {
+			return d
+		}
+		return n
+	}
+	return func(e *Entry) string {
+		pair := make([]string, len(e.Outcomes))
+		for i, n := range e.Outcomes {
+			pair[i] = name(n)
+		}
+		d := *e
+		d.Outcome, d.From, d.Outcomes = name(e.Outcome), name(e.From), pair
+		return label(&d)
+	}
+}
+
+// displayName is the outcome's name in tables.
+func displayName(o OutcomeInfo) string {
+	if o.DisplayName != "" {
+		return o.DisplayName
+	}
+	return o.Name
 }
 
 // label renders an entry in words for a manuscript.
@@ -234,7 +267,7 @@ func tableCaption(s *Summary) string {
 	m := s.Model
 	names := make([]string, len(m.Outcomes))
 	for i, o := range m.Outcomes {
-		names[i] = o.Name
+		names[i] = displayName(o)
 	}
 	kind := "Random-intercept cross-lagged model"
 	switch {

@@ -298,6 +298,13 @@ func TestCheckCommand(t *testing.T) {
 	if code != 0 || !strings.Contains(stdout, "Posterior predictive checks") || !strings.Contains(stdout, "transition[mood:1->1]") {
 		t.Fatalf("check: exit %d, stderr %s, output %q", code, stderr, stdout)
 	}
+	// Extreme p-values are read against how many chance alone gives.
+	if !strings.Contains(stdout, "extreme: p outside (0.05, 0.95)") || !strings.Contains(stdout, "(one in ten would be") || strings.Contains(stdout, "not reproduced") {
+		t.Errorf("check should word extreme p-values with their multiplicity:\n%s", stdout)
+	}
+	if _, err := os.Stat(filepath.Join(out, "check_transition.png")); err != nil {
+		t.Errorf("check figure missing: %v", err)
+	}
 	raw, err := os.ReadFile(filepath.Join(out, "check.json"))
 	if err != nil || !strings.Contains(string(raw), `"ppp"`) {
 		t.Errorf("check.json missing or without p-values (err %v)", err)
