@@ -9,6 +9,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"maps"
 	"math"
 	"os"
 	"regexp"
@@ -412,7 +413,15 @@ func wideColumns(sp *Spec, file string, header []string, col map[string]int) ([]
 		}
 		if found == 0 {
 			example := strings.NewReplacer("{outcome}", o.Name, "{occasion}", "1").Replace(sp.Data.WideColumns)
-			p.addf(file, 1, "no column for outcome %q: expected names like %q (data.wide_columns: %q in %s); the header has: %s", o.Name, example, sp.Data.WideColumns, sp.Path, strings.Join(header, ", "))
+			// Suggest the outcome names the header's columns have once the
+			// occasion numbers are taken off (moood_1, moood_2: "moood").
+			stems := map[string]bool{}
+			for _, h := range header {
+				if st := strings.TrimRight(strings.TrimRight(h, "0123456789"), "_.- "); st != h && st != "" {
+					stems[st] = true
+				}
+			}
+			p.addf(file, 1, "no column for outcome %q: expected names like %q (data.wide_columns: %q in %s)%s; the header has: %s", o.Name, example, sp.Data.WideColumns, sp.Path, suggest(o.Name, slices.Sorted(maps.Keys(stems))), clip(header, 12))
 		}
 	}
 	if i, ok := col[sp.Data.Person]; ok {

@@ -464,3 +464,13 @@ func TestSpreadsheetCSV(t *testing.T) {
 		t.Errorf("a CSV as model file: %v", err)
 	}
 }
+
+// TestWideDidYouMean: a wide file whose columns misspell an outcome gets
+// the outcome name its columns carry as a suggestion.
+func TestWideDidYouMean(t *testing.T) {
+	sp := mustSpec(t, "data: {csv: w.csv, person: id, layout: wide}\noutcomes: [{name: mood, type: ordinal, categories: 3, lowest: 1}, {name: sick, type: binary}]\n")
+	_, err := ParsePanel(sp, "w.csv", []byte("id,moood_1,moood_2,sick_1,sick_2\na,1,2,0,1\nb,3,1,1,0\n"))
+	if err == nil || !strings.Contains(err.Error(), `no column for outcome "mood"`) || !strings.Contains(err.Error(), `did you mean "moood"`) {
+		t.Errorf("err = %v, want a suggestion of \"moood\"", err)
+	}
+}

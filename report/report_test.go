@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"image/png"
 	"math"
+	"regexp"
 	"strings"
 	"testing"
 
@@ -297,6 +298,10 @@ func TestDisplayNamesAndColumns(t *testing.T) {
 	WriteTable(&term, s)
 	if err := WriteHTML(&page, s, &Draws{Names: []string{"threshold[rested,1]"}, Values: [][][]float64{{{1, 2, 3}}}}, nil); err != nil {
 		t.Fatal(err)
+	}
+	goList := regexp.MustCompile(`\[-?\d+( -?\d+)+\]`)
+	if m := goList.FindString(page.String() + term.String()); m != "" {
+		t.Errorf("Go list syntax %q in the report or table", m)
 	}
 	for _, c := range columnHeads(0.9) {
 		if !strings.Contains(term.String(), c) || !strings.Contains(page.String(), "<th>"+c+"</th>") {
