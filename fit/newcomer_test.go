@@ -121,3 +121,42 @@ func TestAnchorAndSpacingRefusals(t *testing.T) {
 		})
 	}
 }
+
+// TestREADMEModelOnSparseFirstDay: the README's reference model file, as
+// printed there, fitted with its own sampler settings to an invented
+// diary whose first day three in four nurses skipped, either converges or
+// says why not: the moved anchor, and the parameters that rest on the
+// sparse day.
+func TestREADMEModelOnSparseFirstDay(t *testing.T) {
+	if testing.Short() {
+		t.Skip("fits the README model")
+	}
+	raw := string(readFile(t, "../README.md"))
+	i := strings.Index(raw, "## Model file reference")
+	b := strings.Index(raw[i:], "```yaml\n") + i + len("```yaml\n")
+	e := strings.Index(raw[b:], "```") + b
+	tr := sampler.Truth{Names: []string{"rested", "headache"}, Types: []model.OutcomeType{model.Ordinal, model.Binary},
+		Tau: [][]float64{{-1.2, -0.3, 0.5, 1.4}, {0.9}}, Psi: []float64{0.6, -0.2, -0.2, 0.5},
+		A: []float64{0.35, 0, -0.15, 0.25}, Sigma: []float64{1, -0.2, -0.2, 1}, Sigma1: []float64{1, -0.2, -0.2, 1},
+		PersonCol: "nurse", OccasionCol: "day", Codes: [][]string{{"1", "2", "3", "4", "5"}, {"no", "yes"}}}
+	recs := simulate(t, tr, 120, 14, 7)
+	for k, r := range recs[1:] {
+		if r[1] == "1" && k%56 >= 14 { // persons 2-4 of every four skip day 1
+			r[2], r[3] = "NA", "NA"
+		}
+	}
+	out, err := Fit(context.Background(), Options{ModelPath: "diary.yaml", ModelRaw: []byte(raw[b:e]), DataRaw: toCSV(recs)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	s := out.Summary
+	warn := strings.Join(s.Warnings, "\n")
+	if !strings.Contains(warn, "answered the first occasion (1)") {
+		t.Errorf("the moved anchor should be stated; warnings:\n%s", warn)
+	}
+	if !s.Converged && !strings.Contains(warn, "run longer") {
+		t.Errorf("an unconverged fit should say what to do; warnings:\n%s", warn)
+	}
+	t.Logf("converged %v; unconverged %v", s.Converged, s.Unconverged)
+	t.Logf("warnings:\n%s", warn)
+}

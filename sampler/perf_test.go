@@ -4,8 +4,10 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"math/rand/v2"
 	"os"
 	"runtime"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -214,4 +216,71 @@ func peakRSS() string {
 // after the latent block.
 func essPerSecondWithPath(tb testing.TB, l *Layout) (float64, string, float64) {
 	return essPerSecondOpt(tb, l, true)
+}
+
+// skipBlock is a block that does nothing, put in place of one to measure
+// what the block buys.
+type skipBlock struct{}
+
+func (skipBlock) Name() string                    { return "skipped" }
+func (skipBlock) Update(*State, *rand.Rand) error { return nil }
+
+// TestPerfLevel measures what the level moves buy on problem P (two
+// binary outcomes, means free over time), on the sparse-first-occasion
+// panel of level_test.go and on a 120-person, 14-day diary fitted with
+// the README's default model (means free): minimum bulk-ESS per second over the thresholds
+// and occasion means, and over the other structural parameters, with and
+// without the block, over four seeds. Run with LAGSTAR_PERF=1.
+func TestPerfLevel(t *testing.T) {
+	if os.Getenv("LAGSTAR_PERF") == "" {
+		t.Skip("set LAGSTAR_PERF=1")
+	}
+	sparse := "data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: [{name: a, type: ordinal, categories: 4, lowest: 0}, {name: b, type: binary}]\ndynamics: {lags: cross}\n"
+	diary, err := Simulate(Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Ordinal, model.Binary}, Tau: [][]float64{{-1.2, -0.3, 0.5, 1.4}, {0.9}},
+		Psi: []float64{0.6, -0.2, -0.2, 0.5}, A: []float64{0.35, 0, -0.15, 0.25}, Sigma: []float64{1, -0.2, -0.2, 1}, Sigma1: []float64{1, -0.2, -0.2, 1}, Missing: 0.05}, 120, 14, newRand(3))
+	if err != nil {
+		t.Fatal(err)
+	}
+	diaryModel := "data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: [{name: a, type: ordinal, categories: 5, lowest: 0}, {name: b, type: binary}]\ndynamics: {lags: cross}\n"
+	for _, c := range []struct {
+		name string
+		l    *Layout
+	}{{"P", problems()[1].layout(t)}, {"sparse first occasion", layoutFrom(t, sparse, levelData(t))}, {"diary 120 x 14, README model", layoutFrom(t, diaryModel, diary)}} {
+		for _, with := range []bool{true, false} {
+			var loc, rest []float64
+			for seed := uint64(1); seed <= 4; seed++ {
+				tweak := func(bs []Block) {
+					for k, b := range bs {
+						if _, ok := b.(*LevelBlock); ok && !with {
+							bs[k] = skipBlock{}
+						}
+					}
+				}
+				res, err := runWith(c.l, model.ThresholdJoint, 2, 1000, 3000, seed, tweak)
+				if err != nil {
+					t.Fatal(err)
+				}
+				minLoc, minRest := math.Inf(1), math.Inf(1)
+				slowest := ""
+				for p, par := range res.Params {
+					e := diagnostics.ESSBulk(res.ParamChains(p, 3000)) / res.Elapsed.Seconds()
+					if par.Kind == "mean" || par.Kind == "threshold" {
+						minLoc = min(minLoc, e)
+					} else if e < minRest {
+						minRest, slowest = e, par.Name
+					}
+				}
+				t.Logf("  %s, level moves %v, seed %d: slowest other parameter %s", c.name, with, seed, slowest)
+				loc, rest = append(loc, minLoc), append(rest, minRest)
+			}
+			t.Logf("%s, level moves %v: min ESS/s thresholds+means %.1f (seeds %.1f), other parameters %.1f (seeds %.1f)",
+				c.name, with, median(loc), loc, median(rest), rest)
+		}
+	}
+}
+
+func median(xs []float64) float64 {
+	s := slices.Clone(xs)
+	slices.Sort(s)
+	return (s[(len(s)-1)/2] + s[len(s)/2]) / 2
 }

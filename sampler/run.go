@@ -77,6 +77,9 @@ func blocksFor(l *Layout, opt Options) []Block {
 			bs = append(bs, NewScaleBlock(l))
 		}
 		bs = append(bs, NewThresholdBlock(l, update))
+		if lb := NewLevelBlock(l); !plain && lb.needed() {
+			bs = append(bs, lb)
+		}
 	}
 	if l.RI {
 		if !plain && l.J == 1 && l.HasPaths() && !l.PathsFree {

@@ -25,12 +25,23 @@ func redrawData(st *sampler.State, rng *rand.Rand, y []float64) {
 // means of every parameter and of its square. Standard errors of the
 // successive-conditional means use batch means; the threshold is
 // Bonferroni over all test functions at family-wise level 0.01.
+//
+// Two cases: means equal over time, and means free over time (which adds
+// the level moves of thresholds against free means).
 func TestGewekeJointDistribution(t *testing.T) {
 	if testing.Short() {
 		t.Skip("Geweke test skipped in -short mode")
 	}
-	sc := Scenario{Name: "geweke", Model: base(`[{name: mood, type: ordinal, categories: 3, lowest: 0}, {name: ache, type: binary}]`,
-		ri, cross, eqM), Persons: 8, Times: 4}
+	const pair = `[{name: mood, type: ordinal, categories: 3, lowest: 0}, {name: ache, type: binary}]`
+	for _, c := range []struct{ name, means string }{{"means equal", eqM}, {"means free", "over_time: free"}} {
+		t.Run(c.name, func(t *testing.T) {
+			t.Parallel()
+			geweke(t, Scenario{Name: "geweke", Model: base(pair, ri, cross, c.means), Persons: 8, Times: 4})
+		})
+	}
+}
+
+func geweke(t *testing.T, sc Scenario) {
 	pr := SBCPriors()
 	l, err := templateLayout(sc, pr)
 	if err != nil {
