@@ -71,13 +71,13 @@ img{max-width:100%}.alarm{background:#b00020;color:#fff;padding:.8em 1em;font-we
 	fmt.Fprintf(&b, `<p class="caution">%s</p>`, esc(Caution))
 	m := s.Model
 	b.WriteString("<h2>Model and data</h2><ul>")
-	fmt.Fprintf(&b, "<li>Data: %s, %d rows, %d persons, %d occasions (%s)</li>", esc(m.DataFile), m.Rows, m.Persons, len(m.Occasions), esc(occasionRange(m.Occasions)))
+	fmt.Fprintf(&b, "<li>Data: %s, %s, %s, %s (%s)</li>", esc(m.DataFile), count(m.Rows, "row", "rows"), count(m.Persons, "person", "persons"), count(len(m.Occasions), "occasion", "occasions"), esc(occasionRange(m.Occasions)))
 	for _, o := range m.Outcomes {
 		fmt.Fprintf(&b, "<li>Outcome %s</li>", esc(OutcomeLine(o)))
 	}
 	fmt.Fprintf(&b, "<li>Random intercepts: %v; carry-over: %s; residual correlation: %v; paths over time: %s; first occasion: %s; means over time: %s</li>",
 		m.RandomIntercepts, esc(m.Lags), m.ResidualCorrelation, esc(m.PathsOverTime), esc(m.FirstOccasion), esc(m.MeansOverTime))
-	fmt.Fprintf(&b, "<li>Sampler: %d chains, %d warm-up, %d draws, threshold update %s</li>", m.Chains, m.Warmup, m.Draws, esc(m.ThresholdUpdate))
+	fmt.Fprintf(&b, "<li>Sampler: %s, %d warm-up, %s, threshold update %s</li>", count(m.Chains, "chain", "chains"), m.Warmup, count(m.Draws, "draw", "draws"), esc(m.ThresholdUpdate))
 	for _, p := range m.Priors {
 		fmt.Fprintf(&b, "<li>Prior: %s</li>", esc(p))
 	}

@@ -347,3 +347,16 @@ func TestFiguresArePagedNotCut(t *testing.T) {
 		t.Errorf("%d parameters gave %d figures, want 2 pages for each of trace, rank and density", n, got)
 	}
 }
+
+// TestPlurals: counts of one are written in the singular.
+func TestPlurals(t *testing.T) {
+	s := &Summary{Program: "lagstar", Complete: true, Converged: true,
+		Model: ModelInfo{Persons: 1, Occasions: []int{1}, Outcomes: []OutcomeInfo{{Name: "y", Type: "continuous"}}, Chains: 1, Draws: 1}}
+	var b bytes.Buffer
+	if err := WriteTable(&b, s); err != nil {
+		t.Fatal(err)
+	}
+	if first, _, _ := strings.Cut(b.String(), "\n"); !strings.Contains(first, "1 person, 1 occasion, 1 outcome; 1 chain x 1 draw") {
+		t.Errorf("header %q, want singular counts", first)
+	}
+}

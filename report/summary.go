@@ -249,6 +249,12 @@ func outcomeInfo(l *sampler.Layout, j int) OutcomeInfo {
 	return info
 }
 
+// count writes n with the singular or plural noun: count(1, "chain",
+// "chains") is "1 chain".
+func count(n int, one, many string) string {
+	return fmt.Sprintf("%d %s", n, pick(n == 1, one, many))
+}
+
 func pick(c bool, a, b string) string {
 	if c {
 		return a

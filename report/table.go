@@ -41,8 +41,9 @@ func WriteTable(w io.Writer, s *Summary) error {
 	case !s.Converged:
 		status = "complete but NOT CONVERGED (rows marked ! fail R-hat <= 1.01 or ESS >= 400; see the warnings)"
 	}
-	fmt.Fprintf(&b, "%s %s: %d persons, %d occasions, %d outcomes; %d chains x %d draws (seed %d), run %s\n",
-		s.Program, s.Version, s.Model.Persons, len(s.Model.Occasions), len(s.Model.Outcomes), s.Model.Chains, s.Model.Draws, s.Seed, status)
+	fmt.Fprintf(&b, "%s %s: %s, %s, %s; %s x %s (seed %d), run %s\n",
+		s.Program, s.Version, count(s.Model.Persons, "person", "persons"), count(len(s.Model.Occasions), "occasion", "occasions"), count(len(s.Model.Outcomes), "outcome", "outcomes"),
+		count(s.Model.Chains, "chain", "chains"), count(s.Model.Draws, "draw", "draws"), s.Seed, status)
 	for _, o := range s.Model.Outcomes {
 		fmt.Fprintf(&b, "  %s\n", OutcomeLine(o))
 	}

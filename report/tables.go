@@ -280,7 +280,7 @@ func tableCaption(s *Summary) string {
 	case m.Lags == "own" || len(names) == 1:
 		kind = "Random-intercept autoregressive model"
 	}
-	return fmt.Sprintf("%s of %s: posterior estimates (N = %d persons, %d occasions)", kind, joinAnd(names), m.Persons, len(m.Occasions))
+	return fmt.Sprintf("%s of %s: posterior estimates (N = %s, %s)", kind, joinAnd(names), count(m.Persons, "person", "persons"), count(len(m.Occasions), "occasion", "occasions"))
 }
 
 // tableNote is the note under a manuscript table: what the numbers are,
@@ -298,8 +298,8 @@ func tableNote(s *Summary, ci string) string {
 	if !s.Complete {
 		conv = "INCOMPLETE: the run was interrupted; finish it with lagstar fit --resume before reporting. " + conv
 	}
-	return fmt.Sprintf("Posterior means with central %ss; categorical outcomes on the probit latent-response scale, continuous ones on their own scale. Standardized: within-person standardized paths. N = %d persons, %d occasions%s; %d chains of %d draws after %d warm-up. %s %s",
-		ci, m.Persons, len(m.Occasions), occ, m.Chains, m.Draws, m.Warmup, conv, Caution)
+	return fmt.Sprintf("Posterior means with central %ss; categorical outcomes on the probit latent-response scale, continuous ones on their own scale. Standardized: within-person standardized paths. N = %s, %s%s; %s of %s after %d warm-up. %s %s",
+		ci, count(m.Persons, "person", "persons"), count(len(m.Occasions), "occasion", "occasions"), occ, count(m.Chains, "chain", "chains"), count(m.Draws, "draw", "draws"), m.Warmup, conv, Caution)
 }
 
 // joinAnd joins names as "a", "a and b", "a, b and c".
