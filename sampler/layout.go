@@ -52,6 +52,9 @@ type Layout struct {
 	// ShardStart[s] is the first person of shard s (see shard.go); the
 	// last entry is N.
 	ShardStart []int
+	// Terms are the model terms the layout has, in registry order
+	// (registry.go).
+	Terms []Term
 }
 
 // CovGroup is one free covariance matrix: the first occasion's or an
@@ -159,6 +162,7 @@ func NewLayout(sp *model.Spec, pan *model.Panel, pr priors.Set) *Layout {
 		l.GroupOf[0] = add(CovGroup{Initial: true, Occ: []int{0}, FreeSD: freeSD, Corr: corr})
 	}
 	l.ShardStart = shardBounds(l.N)
+	l.Terms = activeTerms(l)
 	l.CountAt = make([]int, T)
 	for _, n := range pan.Len {
 		l.MaxLen = max(l.MaxLen, n)

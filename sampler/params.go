@@ -6,7 +6,6 @@ import (
 	"math/rand/v2"
 
 	"github.com/lagstar/lagstar/internal/dense"
-	"gonum.org/v1/gonum/stat/distuv"
 )
 
 // Param describes one reported quantity (a parameter or a derived one).
@@ -24,94 +23,6 @@ type Param struct {
 	Table bool
 }
 
-// Params lists the model's parameters in the order Extract writes them.
-func (l *Layout) Params() []Param {
-	var ps []Param
-	names := l.outcomeNames()
-	occ := func(t int) *int { v := l.Panel.Occasions[t]; return &v }
-	for j := 0; j < l.J; j++ {
-		for k := 1; k < l.K[j] && l.Cat[j]; k++ {
-			ps = append(ps, Param{Name: fmt.Sprintf("threshold[%s,%d]", names[j], k), Kind: "threshold", Outcome: names[j], Index: k, Table: true})
-		}
-	}
-	seen := make([]bool, l.NMean)
-	for t := 0; t < l.T; t++ {
-		for j := 0; j < l.J; j++ {
-			idx := l.MeanIdx[t*l.J+j]
-			if idx < 0 || seen[idx] {
-				continue
-			}
-			seen[idx] = true
-			p := Param{Kind: "mean", Outcome: names[j], Table: true}
-			if l.MeansFree {
-				p.Occasion = occ(t)
-				p.Name = fmt.Sprintf("mean[%s,t=%d]", names[j], *p.Occasion)
-			} else {
-				p.Name = fmt.Sprintf("mean[%s]", names[j])
-			}
-			ps = append(ps, p)
-		}
-	}
-	// Keep mean parameters in MeanIdx order.
-	if l.RI {
-		for j := 0; j < l.J; j++ {
-			ps = append(ps, Param{Name: fmt.Sprintf("ri_variance[%s]", names[j]), Kind: "ri_variance", Outcome: names[j], Table: true})
-		}
-		for a := 0; a < l.J; a++ {
-			for b := a + 1; b < l.J; b++ {
-				ps = append(ps, Param{Name: fmt.Sprintf("ri_correlation[%s,%s]", names[a], names[b]), Kind: "ri_correlation", Pair: []string{names[a], names[b]}, Table: true})
-			}
-		}
-	}
-	for t := 1; t < l.T && l.HasPaths(); t++ {
-		if !l.PathsFree && t > 1 {
-			break
-		}
-		suffix := ""
-		var o *int
-		if l.PathsFree {
-			o = occ(t)
-			suffix = fmt.Sprintf(",t=%d", *o)
-		}
-		for r := 0; r < l.J; r++ {
-			for c := 0; c < l.J; c++ {
-				if !l.PathFree[r*l.J+c] {
-					continue
-				}
-				if r == c {
-					ps = append(ps, Param{Name: fmt.Sprintf("autoregression[%s%s]", names[r], suffix), Kind: "autoregression", Outcome: names[r], Occasion: o, Table: true})
-				} else {
-					ps = append(ps, Param{Name: fmt.Sprintf("crosslag[%s->%s%s]", names[c], names[r], suffix), Kind: "crosslag", Outcome: names[r], From: names[c], Occasion: o, Table: true})
-				}
-			}
-		}
-	}
-	for _, g := range l.Groups {
-		kindV, kindC := "innovation_variance", "innovation_correlation"
-		suffix := ""
-		var o *int
-		if g.Initial {
-			kindV, kindC = "initial_variance", "initial_correlation"
-		} else if l.PathsFree {
-			o = occ(g.Occ[0])
-			suffix = fmt.Sprintf(",t=%d", *o)
-		}
-		for j := 0; j < l.J; j++ {
-			if g.FreeSD[j] {
-				ps = append(ps, Param{Name: fmt.Sprintf("%s[%s%s]", kindV, names[j], suffix), Kind: kindV, Outcome: names[j], Occasion: o, Table: true})
-			}
-		}
-		if g.Corr {
-			for a := 0; a < l.J; a++ {
-				for b := a + 1; b < l.J; b++ {
-					ps = append(ps, Param{Name: fmt.Sprintf("%s[%s,%s%s]", kindC, names[a], names[b], suffix), Kind: kindC, Pair: []string{names[a], names[b]}, Occasion: o, Table: true})
-				}
-			}
-		}
-	}
-	return ps
-}
-
 func (l *Layout) outcomeNames() []string {
 	n := make([]string, l.J)
 	for j, o := range l.Panel.Outcomes {
@@ -120,166 +31,41 @@ func (l *Layout) outcomeNames() []string {
 	return n
 }
 
-// Extract writes the state's parameters, on the outcomes' own scales, in
-// the order of Params.
-func (s *State) Extract(dst []float64) []float64 {
-	l := s.L
-	J := l.J
-	JJ := J * J
-	dst = dst[:0]
-	for j := 0; j < J; j++ {
-		if l.Cat[j] {
-			dst = append(dst, s.Tau[j]...)
-		}
-	}
-	seen := make([]bool, l.NMean)
-	for t := 0; t < l.T; t++ {
-		for j := 0; j < J; j++ {
-			idx := l.MeanIdx[t*J+j]
-			if idx < 0 || seen[idx] {
-				continue
-			}
-			seen[idx] = true
-			dst = append(dst, l.Center[j]+l.Scale[j]*s.Mean[idx])
-		}
-	}
-	if l.RI {
-		for j := 0; j < J; j++ {
-			dst = append(dst, s.Psi[j*J+j]*l.Scale[j]*l.Scale[j])
-		}
-		for a := 0; a < J; a++ {
-			for b := a + 1; b < J; b++ {
-				dst = append(dst, s.Psi[a*J+b]/math.Sqrt(s.Psi[a*J+a]*s.Psi[b*J+b]))
-			}
-		}
-	}
-	for t := 1; t < l.T && l.HasPaths(); t++ {
-		if !l.PathsFree && t > 1 {
-			break
-		}
-		for r := 0; r < J; r++ {
-			for c := 0; c < J; c++ {
-				if l.PathFree[r*J+c] {
-					dst = append(dst, s.A[t*JJ+r*J+c]*l.Scale[r]/l.Scale[c])
-				}
-			}
-		}
-	}
-	for g, grp := range l.Groups {
-		for j := 0; j < J; j++ {
-			if grp.FreeSD[j] {
-				v := s.SD[g][j] * l.Scale[j]
-				dst = append(dst, v*v)
-			}
-		}
-		if grp.Corr {
-			for a := 0; a < J; a++ {
-				for b := a + 1; b < J; b++ {
-					dst = append(dst, s.R[g][a*J+b])
-				}
-			}
-		}
-	}
-	return dst
-}
+// occasion returns grid occasion t's value (for Param.Occasion).
+func (l *Layout) occasion(t int) *int { v := l.Panel.Occasions[t]; return &v }
 
 // DerivedParams lists the derived quantities in the order ExtractDerived
 // writes them: within-person standardized paths, latent intraclass
-// correlations and category probabilities per occasion.
+// correlations and category probabilities per occasion (each active
+// term's, in registryEntry.derived order).
 func (l *Layout) DerivedParams() []Param {
 	var ps []Param
-	names := l.outcomeNames()
-	occ := func(t int) *int { v := l.Panel.Occasions[t]; return &v }
-	for _, t := range l.derivedPathOccasions() {
-		suffix := ""
-		var o *int
-		if l.PathsFree {
-			o = occ(t)
-			suffix = fmt.Sprintf(",t=%d", *o)
-		}
-		for r := 0; r < l.J; r++ {
-			for c := 0; c < l.J; c++ {
-				if !l.PathFree[r*l.J+c] {
-					continue
-				}
-				if r == c {
-					ps = append(ps, Param{Name: fmt.Sprintf("std_autoregression[%s%s]", names[r], suffix), Kind: "std_autoregression", Outcome: names[r], Occasion: o, Table: true})
-				} else {
-					ps = append(ps, Param{Name: fmt.Sprintf("std_crosslag[%s->%s%s]", names[c], names[r], suffix), Kind: "std_crosslag", Outcome: names[r], From: names[c], Occasion: o, Table: true})
-				}
-			}
-		}
-	}
-	if l.RI {
-		for _, t := range l.iccOccasions() {
-			suffix := ""
-			var o *int
-			if t >= 0 {
-				o = occ(t)
-				suffix = fmt.Sprintf(",t=%d", *o)
-			}
-			for j := 0; j < l.J; j++ {
-				ps = append(ps, Param{Name: fmt.Sprintf("icc[%s%s]", names[j], suffix), Kind: "icc", Outcome: names[j], Occasion: o, Table: true})
-			}
-		}
-	}
-	for j := 0; j < l.J; j++ {
-		if !l.Cat[j] {
-			continue
-		}
-		for t := 0; t < l.T; t++ {
-			for k := 0; k < l.K[j]; k++ {
-				o := occ(t)
-				ps = append(ps, Param{Name: fmt.Sprintf("category_probability[%s,%s,t=%d]", names[j], l.Panel.Outcomes[j].Codes[k], *o),
-					Kind: "category_probability", Outcome: names[j], Index: k + 1, Occasion: o})
-			}
-		}
+	for _, t := range derivedOrder(l) {
+		ps = append(ps, t.DerivedParams(l)...)
 	}
 	return ps
 }
 
-func (l *Layout) derivedPathOccasions() []int {
-	if !l.HasPaths() || l.T < 2 {
-		return nil
-	}
-	if !l.PathsFree {
-		return []int{1}
-	}
-	out := make([]int, 0, l.T-1)
-	for t := 1; t < l.T; t++ {
-		out = append(out, t)
-	}
-	return out
+// DerivedWork is scratch space for ExtractDerived: v holds the
+// within-person variances V_t (T blocks of J x J) of the current state,
+// refV the one reference variance used with paths equal over time.
+type DerivedWork struct {
+	v, tmp, ref, st []float64
+	refV            []float64
+	terms           []derivedTerm
 }
-
-// iccOccasions returns -1 for a single ICC per outcome (paths and means
-// equal over time), else every occasion.
-func (l *Layout) iccOccasions() []int {
-	if !l.PathsFree {
-		return []int{-1}
-	}
-	out := make([]int, l.T)
-	for t := range out {
-		out[t] = t
-	}
-	return out
-}
-
-// DerivedWork is scratch space for ExtractDerived.
-type DerivedWork struct{ v, tmp, ref, st []float64 }
 
 // NewDerivedWork allocates scratch for ExtractDerived.
 func NewDerivedWork(l *Layout) *DerivedWork {
-	return &DerivedWork{v: make([]float64, l.T*l.J*l.J), tmp: make([]float64, l.J*l.J), ref: make([]float64, l.J*l.J), st: make([]float64, 6*l.J*l.J)}
+	return &DerivedWork{v: make([]float64, l.T*l.J*l.J), tmp: make([]float64, l.J*l.J), ref: make([]float64, l.J*l.J),
+		st: make([]float64, 6*l.J*l.J), terms: derivedOrder(l)}
 }
 
 // ExtractDerived writes the derived quantities of DerivedParams. The
 // within-person variance V_t follows V_1 = Sigma_1, V_t = A_t V_{t-1} A_t' +
 // Sigma_t; with paths equal over time the standardized paths and the ICC
 // use the stationary variance when the carry-over is stable (else V at the
-// last occasion). Standardized path A[r,c] * sqrt(V_prev[c,c] / V[r,r]);
-// ICC_j = psi_jj / (psi_jj + V[j,j]); category probabilities are the
-// model-implied marginal Phi((tau_k - nu_jt)/sqrt(psi_jj + V_t[j,j])) differences.
+// last occasion).
 func (s *State) ExtractDerived(dst []float64, dw *DerivedWork) []float64 {
 	l := s.L
 	J, T := l.J, l.T
@@ -294,55 +80,14 @@ func (s *State) ExtractDerived(dst []float64, dw *DerivedWork) []float64 {
 			v[t*JJ+k] += s.Sig[t*JJ+k]
 		}
 	}
-	// Equal paths: one reference variance.
-	ref := v[(T-1)*JJ : T*JJ]
+	dw.refV = v[(T-1)*JJ : T*JJ]
 	if !l.PathsFree && T > 1 {
 		if stationaryCov(dw.ref, s.A[JJ:2*JJ], s.Sig[JJ:2*JJ], J, dw.st) {
-			ref = dw.ref
+			dw.refV = dw.ref
 		}
 	}
-	for _, t := range l.derivedPathOccasions() {
-		cur, prev := ref, ref
-		if l.PathsFree {
-			cur, prev = v[t*JJ:(t+1)*JJ], v[(t-1)*JJ:t*JJ]
-		}
-		for r := 0; r < J; r++ {
-			for c := 0; c < J; c++ {
-				if l.PathFree[r*J+c] {
-					dst = append(dst, s.A[t*JJ+r*J+c]*math.Sqrt(prev[c*J+c]/cur[r*J+r]))
-				}
-			}
-		}
-	}
-	if l.RI {
-		for _, t := range l.iccOccasions() {
-			cur := ref
-			if t >= 0 {
-				cur = v[t*JJ : (t+1)*JJ]
-			}
-			for j := 0; j < J; j++ {
-				p := s.Psi[j*J+j]
-				dst = append(dst, p/(p+cur[j*J+j]))
-			}
-		}
-	}
-	norm := distuv.UnitNormal
-	for j := 0; j < J; j++ {
-		if !l.Cat[j] {
-			continue
-		}
-		for t := 0; t < T; t++ {
-			sd := math.Sqrt(s.Psi[j*J+j] + v[t*JJ+j*J+j])
-			prev := 0.0
-			for k := 0; k < l.K[j]; k++ {
-				c := 1.0
-				if k < l.K[j]-1 {
-					c = norm.CDF((s.Tau[j][k] - s.Nu[t*J+j]) / sd)
-				}
-				dst = append(dst, c-prev)
-				prev = c
-			}
-		}
+	for _, t := range dw.terms {
+		dst = t.ExtractDerived(s, dw, dst)
 	}
 	return dst
 }
@@ -352,73 +97,11 @@ func (s *State) ExtractDerived(dst []float64, dw *DerivedWork) []float64 {
 // Latent responses and random intercepts are left as they are.
 func (s *State) Inject(v []float64) error {
 	l := s.L
-	J := l.J
-	JJ := J * J
 	if want := len(l.Params()); len(v) != want {
 		return fmt.Errorf("sampler: %d values for %d parameters", len(v), want)
 	}
-	k := 0
-	next := func() float64 { x := v[k]; k++; return x }
-	for j := 0; j < J; j++ {
-		if l.Cat[j] {
-			for q := range s.Tau[j] {
-				s.Tau[j][q] = next()
-			}
-		}
-	}
-	seen := make([]bool, l.NMean)
-	for t := 0; t < l.T; t++ {
-		for j := 0; j < J; j++ {
-			idx := l.MeanIdx[t*J+j]
-			if idx < 0 || seen[idx] {
-				continue
-			}
-			seen[idx] = true
-			s.Mean[idx] = (next() - l.Center[j]) / l.Scale[j]
-		}
-	}
-	s.SyncNu()
-	if l.RI {
-		for j := 0; j < J; j++ {
-			s.Psi[j*J+j] = next() / (l.Scale[j] * l.Scale[j])
-		}
-		for a := 0; a < J; a++ {
-			for b := a + 1; b < J; b++ {
-				c := next() * math.Sqrt(s.Psi[a*J+a]*s.Psi[b*J+b])
-				s.Psi[a*J+b], s.Psi[b*J+a] = c, c
-			}
-		}
-	}
-	if l.HasPaths() && l.T > 1 {
-		a := make([]float64, JJ)
-		for t := 1; t < l.T; t++ {
-			if !l.PathsFree && t > 1 {
-				break
-			}
-			for r := 0; r < J; r++ {
-				for c := 0; c < J; c++ {
-					if l.PathFree[r*J+c] {
-						a[r*J+c] = next() * l.Scale[c] / l.Scale[r]
-					}
-				}
-			}
-			s.setPaths(t, a)
-		}
-	}
-	for g, grp := range l.Groups {
-		for j := 0; j < J; j++ {
-			if grp.FreeSD[j] {
-				s.SD[g][j] = math.Sqrt(next()) / l.Scale[j]
-			}
-		}
-		if grp.Corr {
-			for a := 0; a < J; a++ {
-				for b := a + 1; b < J; b++ {
-					x := next()
-					s.R[g][a*J+b], s.R[g][b*J+a] = x, x
-				}
-			}
-		}
+	for _, t := range l.Terms {
+		v = t.Inject(s, v)
 	}
 	return s.Refresh()
 }

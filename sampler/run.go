@@ -6,7 +6,6 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
-	"slices"
 	"sync"
 	"time"
 
@@ -58,58 +57,9 @@ func Blocks(l *Layout, update model.ThresholdUpdate) []Block {
 	return blocksFor(l, Options{ThresholdUpdate: update})
 }
 
-// blocksFor returns the blocks for the options of a run.
-func blocksFor(l *Layout, opt Options) []Block {
-	update := opt.ThresholdUpdate
-	plain := update == model.ThresholdAlbertChib
-	var bs []Block
-	if opt.PathMoves && !slices.Contains(l.Cat, false) {
-		// Before the latent block, whose pass leaves State.WQuad for the
-		// scale and threshold blocks.
-		bs = append(bs, NewLatentPathBlock(l))
-	}
-	bs = append(bs, NewLatentBlock(l))
-	anyCat := slices.Contains(l.Cat, true)
-	if anyCat {
-		// The scale block comes right after the latent block, whose pass
-		// leaves the within-path sums it needs (State.WQuad).
-		if !plain {
-			bs = append(bs, NewScaleBlock(l))
-		}
-		bs = append(bs, NewThresholdBlock(l, update))
-		if lb := NewLevelBlock(l); !plain && lb.needed() {
-			bs = append(bs, lb)
-		}
-	}
-	if l.RI {
-		if !plain && l.J == 1 && l.HasPaths() && !l.PathsFree {
-			// Right before the random intercepts, which it leaves to be
-			// drawn from their full conditional. One outcome only: measured
-			// (docs/performance.md), it raised the slowest parameter's
-			// ESS per second by 21% on problem D and 38% on the Ohio panel,
-			// but lowered it by about 25% on the two-outcome problem P,
-			// whose slowest direction lies elsewhere.
-			bs = append(bs, NewCollapsedBlock(l))
-		}
-		bs = append(bs, NewInterceptBlock(l))
-		if !plain {
-			bs = append(bs, NewLocationBlock(l))
-		}
-	}
-	if l.NMean > 0 {
-		bs = append(bs, NewMeanBlock(l))
-	}
-	if l.HasPaths() {
-		bs = append(bs, NewPathBlock(l))
-	}
-	if l.hasFreeCovariance() {
-		bs = append(bs, NewCovBlock(l))
-	}
-	if l.RI {
-		bs = append(bs, NewPsiBlock(l))
-	}
-	return bs
-}
+// blocksFor returns the blocks for the options of a run: every active
+// term's, in sweep-slot order (registry.go).
+func blocksFor(l *Layout, opt Options) []Block { return termBlocks(l, opt) }
 
 // ChainSeeds derives each chain's PCG seeds from the run seed, in chain
 // order, before any goroutine starts.

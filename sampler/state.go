@@ -57,6 +57,10 @@ type State struct {
 	quadW, quadZ [][]float64
 	quadPart     []float64
 
+	// own[k] holds the values of the layout's k-th term when it keeps them
+	// here (OwnValues; State.Own).
+	own [][]float64
+
 	Warmup bool // adaptation allowed
 	work   []float64
 }
@@ -81,71 +85,44 @@ func NewState(l *Layout, rng *rand.Rand) *State {
 		}
 		s.Y[c] = v
 	}
-	// Thresholds from the marginal proportions, jittered.
-	for j := 0; j < J; j++ {
-		if !l.Cat[j] {
-			continue
-		}
-		K := l.K[j]
-		count := make([]float64, K)
-		n := 0.0
-		for c := j; c < len(s.Y); c += J {
-			if v := s.Y[c]; !math.IsNaN(v) {
-				count[int(v)]++
-				n++
-			}
-		}
-		tau := make([]float64, K-1)
-		cum := 0.0
-		for k := 0; k < K-1; k++ {
-			cum += count[k]
-			p := (cum + 0.5) / (n + float64(K)*0.5)
-			tau[k] = normalQuantile(p) + 0.2*(rng.Float64()-0.5)
-			if k > 0 && tau[k] <= tau[k-1]+0.05 {
-				tau[k] = tau[k-1] + 0.05
-			}
-		}
-		s.Tau[j] = tau
-	}
-	s.ShardRng, s.shardSrc = shardRngs(rng, len(l.ShardStart)-1)
-	s.Mom = newMoments(l)
-	s.quadW, s.quadZ, s.quadPart = shardBufs(l, l.MaxLen*J), shardBufs(l, J), make([]float64, len(l.ShardStart)-1)
-	for i := range s.Mean {
-		s.Mean[i] = 0.2 * (rng.Float64() - 0.5)
-	}
-	s.SyncNu()
-	for t := 1; t < T; t++ {
-		for r := 0; r < J; r++ {
-			for c := 0; c < J; c++ {
-				if l.PathFree[r*J+c] {
-					s.A[(t*J+r)*J+c] = 0.2 * (rng.Float64() - 0.5)
-				}
-			}
-		}
-	}
-	if !l.PathsFree {
-		for t := 2; t < T; t++ {
-			copy(s.A[t*J*J:(t+1)*J*J], s.A[J*J:2*J*J])
-		}
-	}
+	// Allocated at neutral values; the terms draw their starting values
+	// in draw order (registry.go), the shard streams being split off the
+	// chain's stream after the terms below shardSplit.
 	s.SD = make([][]float64, len(l.Groups))
 	s.R = make([][]float64, len(l.Groups))
-	for g, grp := range l.Groups {
+	for g := range l.Groups {
 		s.SD[g] = make([]float64, J)
 		s.R[g] = make([]float64, J*J)
 		dense.Identity(s.R[g], J)
-		for j := 0; j < J; j++ {
+		for j := range s.SD[g] {
 			s.SD[g][j] = 1
-			if grp.FreeSD[j] {
-				s.SD[g][j] = 0.6 + 0.3*rng.Float64()
-			}
 		}
 	}
-	for j := 0; j < J; j++ {
-		if l.RI {
-			s.Psi[j*J+j] = 0.3 + 0.4*rng.Float64()
+	for j := range s.Tau {
+		if l.Cat[j] {
+			s.Tau[j] = make([]float64, l.K[j]-1)
 		}
 	}
+	s.own = make([][]float64, len(l.Terms))
+	for k, t := range l.Terms {
+		if o, ok := t.(OwnValues); ok {
+			s.own[k] = make([]float64, o.OwnSize(l))
+		}
+	}
+	s.Mom = newMoments(l)
+	s.quadW, s.quadZ, s.quadPart = shardBufs(l, l.MaxLen*J), shardBufs(l, J), make([]float64, len(l.ShardStart)-1)
+	split := false
+	for _, e := range drawOrder(l) {
+		if !split && e.draw >= shardSplit {
+			s.ShardRng, s.shardSrc = shardRngs(rng, len(l.ShardStart)-1)
+			split = true
+		}
+		e.term.Start(s, rng)
+	}
+	if !split {
+		s.ShardRng, s.shardSrc = shardRngs(rng, len(l.ShardStart)-1)
+	}
+	s.SyncNu()
 	if err := s.Refresh(); err != nil {
 		panic("sampler: starting values not valid: " + err.Error())
 	}
@@ -341,16 +318,4 @@ func (s *State) quadShard(ys []float64, sh, lo, hi int) {
 		}
 	}
 	s.quadPart[sh] = total
-}
-
-// setPaths writes the J x J block a into A at every occasion it applies to.
-func (s *State) setPaths(t int, a []float64) {
-	JJ := s.L.J * s.L.J
-	if s.L.PathsFree {
-		copy(s.A[t*JJ:(t+1)*JJ], a)
-		return
-	}
-	for u := 1; u < s.L.T; u++ {
-		copy(s.A[u*JJ:(u+1)*JJ], a)
-	}
 }

@@ -5,9 +5,7 @@ import (
 	"context"
 	"encoding/csv"
 	"fmt"
-	"math"
 	"math/rand/v2"
-	"slices"
 	"strconv"
 	"sync"
 
@@ -207,83 +205,13 @@ func oneReplication(sc Scenario, cfg Config, pr priors.Set, tmpl *sampler.Layout
 }
 
 // DrawPrior returns a state of l whose parameters are drawn from the prior
-// pr: ordered thresholds as sorted normal draws, normal means and paths
-// (redrawn until stable under a stationary start), inverse-gamma free
-// variances, uniform correlation matrices (by rejection from uniform
-// off-diagonals) and an inverse-Wishart random-intercept covariance.
+// pr, term by term (sampler.State.DrawPrior): the truth of a replication.
 func DrawPrior(l *sampler.Layout, pr priors.Set, rng *rand.Rand) *sampler.State {
 	st := sampler.NewState(l, rng)
-	J, T := l.J, l.T
-	JJ := J * J
-	for j := 0; j < J; j++ {
-		if l.Cat[j] {
-			for k := range st.Tau[j] {
-				st.Tau[j][k] = pr.ThresholdSD * rng.NormFloat64()
-			}
-			slices.Sort(st.Tau[j])
-		}
-	}
-	for i := range st.Mean {
-		st.Mean[i] = pr.MeanSD * rng.NormFloat64()
-	}
-	st.SyncNu()
-	work := make([]float64, 6*JJ)
-	for {
-		for t := 1; t < T; t++ {
-			if !l.PathsFree && t > 1 {
-				copy(st.A[t*JJ:(t+1)*JJ], st.A[JJ:2*JJ])
-				continue
-			}
-			for k, free := range l.PathFree {
-				if free {
-					st.A[t*JJ+k] = pr.PathSD * rng.NormFloat64()
-				}
-			}
-		}
-		if l.GroupOf[0] != -1 || T < 2 || dense.SpectralRadiusBelowOne(st.A[JJ:2*JJ], J, work) {
-			break
-		}
-	}
-	for g, grp := range l.Groups {
-		for j := 0; j < J; j++ {
-			if grp.FreeSD[j] {
-				st.SD[g][j] = math.Sqrt(pr.VarScale / priors.Gamma(rng, pr.VarShape))
-			}
-		}
-		if grp.Corr {
-			uniformCorrelation(st.R[g], J, rng)
-		}
-	}
-	if l.RI {
-		scale := make([]float64, JJ)
-		for j := 0; j < J; j++ {
-			scale[j*J+j] = pr.RIScale
-		}
-		priors.InvWishart(st.Psi, rng, float64(J)+pr.RIDfExtra, scale, J, make([]float64, priors.InvWishartWork(J)))
-	}
-	if err := st.Refresh(); err != nil {
+	if err := st.DrawPrior(pr, rng); err != nil {
 		panic("validate: prior draw not valid: " + err.Error())
 	}
 	return st
-}
-
-// uniformCorrelation draws a correlation matrix uniformly over the
-// positive-definite ones by rejection.
-func uniformCorrelation(r []float64, J int, rng *rand.Rand) {
-	c := make([]float64, J*J)
-	for {
-		dense.Identity(r, J)
-		for a := 0; a < J; a++ {
-			for b := a + 1; b < J; b++ {
-				v := 2*rng.Float64() - 1
-				r[a*J+b], r[b*J+a] = v, v
-			}
-		}
-		copy(c, r)
-		if dense.Cholesky(c, J) {
-			return
-		}
-	}
 }
 
 // SimulatePanel draws a long-format CSV of n persons x T occasions from the
