@@ -56,7 +56,7 @@ func floorNs(l *Layout, st *State, rng *rand.Rand) float64 {
 	var ab [][2]float64
 	lb := NewLatentBlock(l)
 	lb.record = func(a, c float64) { ab = append(ab, [2]float64{a, c}) }
-	lb.Update(st, rng)
+	UpdateBlock(st, lb, rng)
 	missing := latentCount(st) - len(ab)
 	best := math.Inf(1)
 	s := 0.0

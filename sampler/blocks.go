@@ -8,13 +8,6 @@ import (
 	"github.com/lagstar/lagstar/latentresp"
 )
 
-// A Block draws one group of parameters from its full conditional, or makes
-// a Metropolis-Hastings move that leaves it invariant.
-type Block interface {
-	Name() string
-	Update(st *State, rng *rand.Rand) error
-}
-
 // LatentBlock draws every latent response y*_ijt of a categorical or missing
 // cell from its full conditional: a normal with precision and mean taken
 // from the block-tridiagonal precision of the person's VAR(1) path,
@@ -55,7 +48,6 @@ func (lb *LatentBlock) Update(st *State, _ *rand.Rand) error {
 	}
 	symmetrize(st.WQuad, l.J)
 	st.WQuadOK = true
-	st.Mom.ok = false
 	return nil
 }
 
@@ -297,8 +289,6 @@ func (ib *InterceptBlock) Update(st *State, _ *rand.Rand) error {
 	if err := ib.prepare(st); err != nil {
 		return err
 	}
-	st.WQuadOK = false
-	st.Mom.ok = false
 	l := st.L
 	if len(l.ShardStart) == 2 {
 		ib.drawShard(st, 0, 0, l.N)

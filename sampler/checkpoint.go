@@ -57,7 +57,7 @@ type chainCheckpoint struct {
 	Ystar, B, Mean, Nu, A, Sig, Psi []byte
 	Tau, SD, R                      [][]float64
 
-	Blocks         [][]byte // persist() values of each block, gob-encoded, in sweep order
+	Blocks         [][]byte // AdaptState() values of each block, gob-encoded, in sweep order
 	Draws, Derived []byte
 }
 
@@ -82,23 +82,6 @@ func unpackFloats(b []byte) ([]float64, bool) {
 	}
 	return x, true
 }
-
-// persistent is implemented by blocks that carry values from one sweep to
-// the next (step sizes adapted during warm-up, counters); persist returns
-// pointers to them, in a fixed order, for checkpoints.
-type persistent interface {
-	persist() []any
-}
-
-func (cb *CovBlock) persist() []any       { return []any{&cb.logStep, &cb.tries} }
-func (tb *ThresholdBlock) persist() []any { return []any{&tb.logStep, &tb.tries} }
-func (pb *PathBlock) persist() []any {
-	return []any{&pb.Accepted, &pb.Proposed, &pb.logStep, &pb.Tries, &pb.Walked}
-}
-func (cb *CollapsedBlock) persist() []any {
-	return []any{&cb.logStep, &cb.sumX, &cb.sumXX, &cb.seen, &cb.Tries, &cb.Accepts}
-}
-func (pb *LatentPathBlock) persist() []any { return []any{&pb.Bounces, &pb.Stuck} }
 
 // fingerprint identifies the layout (model, data, parameter list) and the
 // options that decide the draws (seed, chains, warm-up, block choice), so a
@@ -139,9 +122,9 @@ func (r *Runner) checkpoint(c int) ([]byte, error) {
 	}
 	for _, b := range ch.blocks {
 		var buf bytes.Buffer
-		if p, ok := b.(persistent); ok {
+		if p, ok := b.(Adaptive); ok {
 			enc := gob.NewEncoder(&buf)
-			for _, v := range p.persist() {
+			for _, v := range p.AdaptState() {
 				if err := enc.Encode(v); err != nil {
 					return nil, fmt.Errorf("checkpoint of block %q: %w", b.Name(), err)
 				}
@@ -224,12 +207,12 @@ func (r *Runner) restore(c int, data []byte) (target int, err error) {
 		}
 	}
 	for k, b := range ch.blocks {
-		p, ok := b.(persistent)
+		p, ok := b.(Adaptive)
 		if !ok {
 			continue
 		}
 		dec := gob.NewDecoder(bytes.NewReader(cp.Blocks[k]))
-		for _, v := range p.persist() {
+		for _, v := range p.AdaptState() {
 			if err := dec.Decode(v); err != nil {
 				return bad(fmt.Sprintf("block %q: not readable (%v)", b.Name(), err))
 			}

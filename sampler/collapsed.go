@@ -235,3 +235,9 @@ func (cb *CollapsedBlock) covariance() bool {
 	}
 	return dense.Cholesky(cb.chol, d)
 }
+
+// AdaptState implements Adaptive: the step size and the running moments
+// of the adaptive proposal, with its counters.
+func (cb *CollapsedBlock) AdaptState() []any {
+	return []any{&cb.logStep, &cb.sumX, &cb.sumXX, &cb.seen, &cb.Tries, &cb.Accepts}
+}

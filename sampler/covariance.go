@@ -209,3 +209,6 @@ func stationaryCovW(v, a, s []float64, J int, work []float64) bool {
 	}
 	return dense.StationaryCov(v, a, s, J, work)
 }
+
+// AdaptState implements Adaptive: the adapted step sizes and their tries.
+func (cb *CovBlock) AdaptState() []any { return []any{&cb.logStep, &cb.tries} }

@@ -69,7 +69,7 @@ func TestLevelConditionalExact(t *testing.T) {
 			}
 			// After a move of every outcome, the innovation sums kept
 			// current by hand equal those recomputed from the new state.
-			if err := lb.Update(st, rng); err != nil {
+			if err := UpdateBlock(st, lb, rng); err != nil {
 				t.Fatal(err)
 			}
 			kept := append([]float64(nil), lb.rsum...)

@@ -68,8 +68,6 @@ func (pb *LatentPathBlock) Update(st *State, _ *rand.Rand) error {
 	} else {
 		forShards(l, func(s, lo, hi int) { pb.moveShard(st, s, lo, hi) })
 	}
-	st.WQuadOK = false
-	st.Mom.ok = false
 	return nil
 }
 
@@ -271,3 +269,6 @@ func (pb *LatentPathBlock) trajectory(L []float64, n int, a, b, low, high, col [
 		last = kHit
 	}
 }
+
+// AdaptState implements Adaptive: the move's counters.
+func (pb *LatentPathBlock) AdaptState() []any { return []any{&pb.Bounces, &pb.Stuck} }

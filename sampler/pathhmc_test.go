@@ -32,7 +32,7 @@ means: {over_time: equal}
 			t.Fatal(err)
 		}
 		// Put the latent responses inside the new thresholds first.
-		if err := NewLatentBlock(l).Update(st, rng); err != nil {
+		if err := UpdateBlock(st, NewLatentBlock(l), rng); err != nil {
 			t.Fatal(err)
 		}
 		var blk Block = NewLatentBlock(l)
@@ -42,7 +42,7 @@ means: {over_time: equal}
 		const iters = 60000
 		draws := make([][]float64, 6)
 		for it := 0; it < iters+200; it++ {
-			if err := blk.Update(st, rng); err != nil {
+			if err := UpdateBlock(st, blk, rng); err != nil {
 				t.Fatal(err)
 			}
 			if it >= 200 {

@@ -196,3 +196,9 @@ func (pb *PathBlock) initialLogLik(st *State) float64 {
 	J := st.L.J
 	return -0.5*float64(st.L.N)*st.LogDet[0] - 0.5*dense.TraceProd(st.SigInv[:J*J], pb.s00, J)
 }
+
+// AdaptState implements Adaptive: acceptance counters, the adapted step
+// size and the walk's counters.
+func (pb *PathBlock) AdaptState() []any {
+	return []any{&pb.Accepted, &pb.Proposed, &pb.logStep, &pb.Tries, &pb.Walked}
+}

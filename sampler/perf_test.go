@@ -101,7 +101,7 @@ func BenchmarkBlocks(b *testing.B) {
 			b.Run(fmt.Sprintf("%s/%s", p.name, blk.Name()), func(b *testing.B) {
 				b.ReportAllocs()
 				for b.Loop() {
-					if err := blk.Update(st, rng); err != nil {
+					if err := UpdateBlock(st, blk, rng); err != nil {
 						b.Fatal(err)
 					}
 				}
@@ -224,6 +224,7 @@ type skipBlock struct{}
 
 func (skipBlock) Name() string                    { return "skipped" }
 func (skipBlock) Update(*State, *rand.Rand) error { return nil }
+func (skipBlock) Writes() Part                    { return 0 }
 
 // TestPerfLevel measures what the level moves buy on problem P (two
 // binary outcomes, means free over time), on the sparse-first-occasion

@@ -2,7 +2,6 @@ package sampler
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -233,35 +232,6 @@ func (r *Runner) advance(ctx context.Context, c int) error {
 		}
 	}
 	return save()
-}
-
-// Sweep runs every block once. An error, or a value that is not finite
-// left behind by a block, is reported with the block's name.
-func Sweep(st *State, blocks []Block, rng *rand.Rand) error {
-	for _, b := range blocks {
-		if err := b.Update(st, rng); err != nil {
-			var be *BlockError
-			if errors.As(err, &be) {
-				return err
-			}
-			return &BlockError{Block: b.Name(), Msg: err.Error()}
-		}
-		if what := st.nonFinite(writesLatent(b)); what != "" {
-			return &BlockError{Block: b.Name(), Msg: what + " is not finite after this block"}
-		}
-	}
-	return nil
-}
-
-// writesLatent reports whether block b may change latent responses; the
-// others leave Ystar alone, so it is not scanned after them. Blocks not
-// listed are taken to change it.
-func writesLatent(b Block) bool {
-	switch b.(type) {
-	case *InterceptBlock, *MeanBlock, *PathBlock, *CovBlock, *PsiBlock, *CollapsedBlock:
-		return false
-	}
-	return true
 }
 
 // nonFinite names the first parameter (or, when latent is true, latent

@@ -29,7 +29,7 @@ func TestWQuadMatchesDirect(t *testing.T) {
 		lat := NewLatentBlock(l)
 		sc := NewScaleBlock(l)
 		for step, b := range []Block{lat, sc} {
-			if err := b.Update(st, rng); err != nil {
+			if err := UpdateBlock(st, b, rng); err != nil {
 				t.Fatal(err)
 			}
 			if !st.WQuadOK {
@@ -115,7 +115,7 @@ func TestMomentsGiveInnovationSums(t *testing.T) {
 	}
 	cb := NewCovBlock(l)
 	cb.rounds = 0 // statistics only
-	if err := cb.Update(st, rng); err != nil {
+	if err := UpdateBlock(st, cb, rng); err != nil {
 		t.Fatal(err)
 	}
 	for g := range direct {
@@ -182,6 +182,7 @@ func TestInjectInvertsExtract(t *testing.T) {
 type nanBlock struct{}
 
 func (nanBlock) Name() string { return "test block" }
+func (nanBlock) Writes() Part { return PartPaths }
 func (nanBlock) Update(st *State, _ *rand.Rand) error {
 	st.A[len(st.A)-1] = math.NaN()
 	return nil

@@ -207,3 +207,6 @@ func adapt(logStep *float64, accepted bool, target float64, n int) {
 	*logStep += (a - target) * 2 / math.Sqrt(float64(n)+10)
 	*logStep = min(max(*logStep, math.Log(1e-4)), math.Log(10))
 }
+
+// AdaptState implements Adaptive: the adapted step sizes and their tries.
+func (tb *ThresholdBlock) AdaptState() []any { return []any{&tb.logStep, &tb.tries} }
