@@ -121,59 +121,29 @@ func (s *State) Replicate(dst []float64, rng *rand.Rand) {
 func (s *State) ReplicateLatent(dst, ystar, b []float64, rng *rand.Rand) {
 	l := s.L
 	J := l.J
-	JJ := J * J
-	work := make([]float64, JJ+4*J)
-	chol, z, bi, cur := work[:JJ], work[JJ:JJ+J], work[JJ+J:JJ+2*J], work[JJ+2*J:JJ+3*J]
-	prev := work[JJ+3*J : JJ+4*J]
-	draw := func(dst, m []float64) {
-		copy(chol, m)
-		dense.Cholesky(chol, J)
-		for q := range z {
-			z[q] = rng.NormFloat64()
-		}
-		dense.MulVec(dst, chol, z, J, J)
+	g, err := s.Generator()
+	if err != nil {
+		panic("sampler: replicate from a state whose caches are not current: " + err.Error())
 	}
+	bi := make([]float64, J)
 	for i := 0; i < l.N; i++ {
-		for q := range bi {
-			bi[q] = 0
-		}
-		if l.RI {
-			draw(bi, s.Psi)
-		}
+		off := l.Panel.Offset[i]
+		g.Person(l.Panel.Len[i], rng, bi, func(t, j int, y float64) {
+			c := off + t*J + j
+			if ystar != nil {
+				ystar[c] = y
+			}
+			switch {
+			case s.Y[c] != s.Y[c]:
+				dst[c] = math.NaN()
+			case !l.Cat[j]:
+				dst[c] = y
+			default:
+				dst[c] = float64(g.Category(j, y))
+			}
+		})
 		if b != nil {
 			copy(b[i*J:i*J+J], bi)
-		}
-		off := l.Panel.Offset[i]
-		for t := 0; t < l.Panel.Len[i]; t++ {
-			draw(cur, s.Sig[t*JJ:(t+1)*JJ])
-			if t > 0 {
-				a := s.A[t*JJ : (t+1)*JJ]
-				for r := 0; r < J; r++ {
-					for c := 0; c < J; c++ {
-						cur[r] += a[r*J+c] * prev[c]
-					}
-				}
-			}
-			copy(prev, cur)
-			for j := 0; j < J; j++ {
-				c := off + t*J + j
-				y := s.Nu[t*J+j] + bi[j] + cur[j]
-				if ystar != nil {
-					ystar[c] = y
-				}
-				switch {
-				case s.Y[c] != s.Y[c]:
-					dst[c] = math.NaN()
-				case !l.Cat[j]:
-					dst[c] = y
-				default:
-					k := 0
-					for k < len(s.Tau[j]) && y > s.Tau[j][k] {
-						k++
-					}
-					dst[c] = float64(k)
-				}
-			}
 		}
 	}
 }

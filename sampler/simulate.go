@@ -7,7 +7,6 @@ import (
 	"math/rand/v2"
 	"strconv"
 
-	"github.com/lagstar/lagstar/internal/dense"
 	"github.com/lagstar/lagstar/model"
 )
 
@@ -57,33 +56,20 @@ func Simulate(tr Truth, n, t int, rng *rand.Rand) ([]byte, error) {
 			return nil, fmt.Errorf("simulate: carry-over is not stable")
 		}
 	}
-	cholOf := func(m []float64) ([]float64, error) {
-		c := append([]float64(nil), m...)
-		if !dense.Cholesky(c, J) {
-			return nil, fmt.Errorf("simulate: covariance not positive definite")
-		}
-		return c, nil
+	sig := make([]float64, t*JJ)
+	at := make([]float64, t*JJ)
+	copy(sig, sig1)
+	for s := 1; s < t; s++ {
+		copy(sig[s*JJ:(s+1)*JJ], tr.Sigma)
+		copy(at[s*JJ:(s+1)*JJ], a)
 	}
-	c1, err := cholOf(sig1)
+	cat := make([]bool, J)
+	for j, ty := range tr.Types {
+		cat[j] = ty.Categorical()
+	}
+	g, err := NewGenerator(J, t, cat, tr.Nu, tr.Tau, at, sig, tr.Psi)
 	if err != nil {
-		return nil, err
-	}
-	cs, err := cholOf(tr.Sigma)
-	if err != nil {
-		return nil, err
-	}
-	var cp []float64
-	if tr.Psi != nil {
-		if cp, err = cholOf(tr.Psi); err != nil {
-			return nil, err
-		}
-	}
-	draw := func(dst, chol []float64) {
-		z := make([]float64, J)
-		for k := range z {
-			z[k] = rng.NormFloat64()
-		}
-		dense.MulVec(dst, chol, z, J, J)
+		return nil, fmt.Errorf("simulate: %v", err)
 	}
 	var buf bytes.Buffer
 	wr := csv.NewWriter(&buf)
@@ -96,54 +82,26 @@ func Simulate(tr Truth, n, t int, rng *rand.Rand) ([]byte, error) {
 	}
 	wr.Write(append([]string{pc, oc}, tr.Names...))
 	b := make([]float64, J)
-	w := make([]float64, J)
-	prev := make([]float64, J)
-	zeta := make([]float64, J)
+	var rec []string
 	for i := 0; i < n; i++ {
-		for k := range b {
-			b[k] = 0
-		}
-		if cp != nil {
-			draw(b, cp)
-		}
-		for s := 0; s < t; s++ {
-			if s == 0 {
-				draw(w, c1)
-			} else {
-				draw(zeta, cs)
-				dense.MulVec(w, a, prev, J, J)
-				for k := range w {
-					w[k] += zeta[k]
-				}
+		g.Person(t, rng, b, func(s, j int, y float64) {
+			if j == 0 {
+				rec = []string{strconv.Itoa(i + 1), strconv.Itoa(s + 1)}
 			}
-			copy(prev, w)
-			rec := []string{strconv.Itoa(i + 1), strconv.Itoa(s + 1)}
-			for j := 0; j < J; j++ {
-				nu := 0.0
-				if tr.Nu != nil {
-					nu = tr.Nu[s*J+j]
-				}
-				y := nu + b[j] + w[j]
-				if rng.Float64() < tr.Missing {
-					rec = append(rec, missingText)
-					continue
-				}
-				if !tr.Types[j].Categorical() {
-					rec = append(rec, strconv.FormatFloat(y, 'g', 8, 64))
-					continue
-				}
-				k := 0
-				for k < len(tr.Tau[j]) && y > tr.Tau[j][k] {
-					k++
-				}
-				if tr.Codes != nil && tr.Codes[j] != nil {
-					rec = append(rec, tr.Codes[j][k])
-				} else {
-					rec = append(rec, strconv.Itoa(k))
-				}
+			switch {
+			case rng.Float64() < tr.Missing:
+				rec = append(rec, missingText)
+			case !cat[j]:
+				rec = append(rec, strconv.FormatFloat(y, 'g', 8, 64))
+			case tr.Codes != nil && tr.Codes[j] != nil:
+				rec = append(rec, tr.Codes[j][g.Category(j, y)])
+			default:
+				rec = append(rec, strconv.Itoa(g.Category(j, y)))
 			}
-			wr.Write(rec)
-		}
+			if j == J-1 {
+				wr.Write(rec)
+			}
+		})
 	}
 	wr.Flush()
 	return buf.Bytes(), wr.Error()

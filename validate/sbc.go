@@ -9,7 +9,6 @@ import (
 	"strconv"
 	"sync"
 
-	"github.com/lagstar/lagstar/internal/dense"
 	"github.com/lagstar/lagstar/model"
 	"github.com/lagstar/lagstar/priors"
 	"github.com/lagstar/lagstar/sampler"
@@ -221,21 +220,9 @@ func DrawPrior(l *sampler.Layout, pr priors.Set, rng *rand.Rand) *sampler.State 
 func SimulatePanel(st *sampler.State, n, T int, missing float64, rng *rand.Rand) []byte {
 	l := st.L
 	J := l.J
-	JJ := J * J
-	chol := func(m []float64) []float64 {
-		c := append([]float64(nil), m...)
-		if !dense.Cholesky(c, J) {
-			panic("validate: covariance not positive definite")
-		}
-		return c
-	}
-	sigChol := make([][]float64, T)
-	for t := 0; t < T; t++ {
-		sigChol[t] = chol(st.Sig[t*JJ : (t+1)*JJ])
-	}
-	var psiChol []float64
-	if l.RI {
-		psiChol = chol(st.Psi)
+	g, err := st.Generator()
+	if err != nil {
+		panic("validate: " + err.Error())
 	}
 	var buf bytes.Buffer
 	w := csv.NewWriter(&buf)
@@ -244,52 +231,25 @@ func SimulatePanel(st *sampler.State, n, T int, missing float64, rng *rand.Rand)
 		head = append(head, o.Name)
 	}
 	w.Write(head)
-	z := make([]float64, J)
 	b := make([]float64, J)
-	cur := make([]float64, J)
-	prev := make([]float64, J)
-	draw := func(dst, c []float64) {
-		for k := range z {
-			z[k] = rng.NormFloat64()
-		}
-		dense.MulVec(dst, c, z, J, J)
-	}
+	var rec []string
 	for i := 0; i < n; i++ {
-		for k := range b {
-			b[k] = 0
-		}
-		if psiChol != nil {
-			draw(b, psiChol)
-		}
-		for t := 0; t < T; t++ {
-			draw(cur, sigChol[t])
-			if t > 0 {
-				a := st.A[t*JJ : (t+1)*JJ]
-				for r := 0; r < J; r++ {
-					for c := 0; c < J; c++ {
-						cur[r] += a[r*J+c] * prev[c]
-					}
-				}
+		g.Person(T, rng, b, func(t, j int, y float64) {
+			if j == 0 {
+				rec = []string{strconv.Itoa(i + 1), strconv.Itoa(t + 1)}
 			}
-			copy(prev, cur)
-			rec := []string{strconv.Itoa(i + 1), strconv.Itoa(t + 1)}
-			for j, o := range l.Spec.Outcomes {
-				y := st.Nu[t*J+j] + b[j] + cur[j]
-				switch {
-				case rng.Float64() < missing:
-					rec = append(rec, "NA")
-				case !l.Cat[j]:
-					rec = append(rec, strconv.FormatFloat(y, 'g', -1, 64))
-				default:
-					k := 0
-					for k < len(st.Tau[j]) && y > st.Tau[j][k] {
-						k++
-					}
-					rec = append(rec, codeLabel(o, k))
-				}
+			switch {
+			case rng.Float64() < missing:
+				rec = append(rec, "NA")
+			case !l.Cat[j]:
+				rec = append(rec, strconv.FormatFloat(y, 'g', -1, 64))
+			default:
+				rec = append(rec, codeLabel(l.Spec.Outcomes[j], g.Category(j, y)))
 			}
-			w.Write(rec)
-		}
+			if j == J-1 {
+				w.Write(rec)
+			}
+		})
 	}
 	w.Flush()
 	return buf.Bytes()

@@ -1,0 +1,112 @@
+package sampler
+
+import (
+	"fmt"
+	"math/rand/v2"
+
+	"github.com/lagstar/lagstar/internal/dense"
+)
+
+// Generator is the model as a data-generating process, the one used for
+// posterior predictive replicates (State.Replicate), for lagstar simulate
+// (Simulate) and for the calibration's panels (validate): for person i,
+//
+//	b_i ~ N(0, Psi),  w_i1 ~ N(0, Sigma_1),  w_it = A_t w_i,t-1 + zeta_it, zeta_it ~ N(0, Sigma_t),
+//	y*_ijt = nu_tj + b_ij + w_itj,  y_ijt = k where tau_j,k-1 < y*_ijt <= tau_jk.
+//
+// Normal vectors are drawn as a Cholesky factor times standard normals,
+// intercepts first, then occasion by occasion.
+type Generator struct {
+	J, T int
+	Cat  []bool
+	Nu   []float64   // T x J occasion means (nil: 0)
+	Tau  [][]float64 // thresholds per categorical outcome
+	A    []float64   // T blocks of J x J, block 0 unused (nil: no carry-over)
+
+	sigChol, psiChol []float64
+	z, cur, prev     []float64
+}
+
+// NewGenerator factors the covariances: sig holds Sigma_t for t =
+// 0..T-1 (T blocks of J x J), psi the random-intercept covariance (nil:
+// no random intercepts).
+func NewGenerator(J, T int, cat []bool, nu []float64, tau [][]float64, a, sig, psi []float64) (*Generator, error) {
+	JJ := J * J
+	g := &Generator{J: J, T: T, Cat: cat, Nu: nu, Tau: tau, A: a, sigChol: make([]float64, T*JJ),
+		z: make([]float64, J), cur: make([]float64, J), prev: make([]float64, J)}
+	copy(g.sigChol, sig[:T*JJ])
+	for t := 0; t < T; t++ {
+		if !dense.Cholesky(g.sigChol[t*JJ:(t+1)*JJ], J) {
+			return nil, fmt.Errorf("covariance at occasion %d not positive definite", t+1)
+		}
+	}
+	if psi != nil {
+		g.psiChol = append([]float64(nil), psi...)
+		if !dense.Cholesky(g.psiChol, J) {
+			return nil, fmt.Errorf("random-intercept covariance not positive definite")
+		}
+	}
+	return g, nil
+}
+
+// Generator returns the state's model as a generator (on the analysis
+// scale: continuous outcomes standardized).
+func (s *State) Generator() (*Generator, error) {
+	var psi []float64
+	if s.L.RI {
+		psi = s.Psi
+	}
+	return NewGenerator(s.L.J, s.L.T, s.L.Cat, s.Nu, s.Tau, s.A, s.Sig, psi)
+}
+
+func (g *Generator) draw(dst, chol []float64, rng *rand.Rand) {
+	for q := range g.z {
+		g.z[q] = rng.NormFloat64()
+	}
+	dense.MulVec(dst, chol, g.z, g.J, g.J)
+}
+
+// Person draws one person's random intercepts into b (J values) and
+// latent responses at occasions 0..n-1, calling cell(t, j, y*) for every
+// cell in order, after occasion t's within part is drawn (cell may draw
+// from rng too, e.g. whether the cell is missing).
+func (g *Generator) Person(n int, rng *rand.Rand, b []float64, cell func(t, j int, ystar float64)) {
+	J := g.J
+	JJ := J * J
+	for q := range b {
+		b[q] = 0
+	}
+	if g.psiChol != nil {
+		g.draw(b, g.psiChol, rng)
+	}
+	cur, prev := g.cur, g.prev
+	for t := 0; t < n; t++ {
+		g.draw(cur, g.sigChol[t*JJ:(t+1)*JJ], rng)
+		if t > 0 && g.A != nil {
+			a := g.A[t*JJ : (t+1)*JJ]
+			for r := 0; r < J; r++ {
+				for c := 0; c < J; c++ {
+					cur[r] += a[r*J+c] * prev[c]
+				}
+			}
+		}
+		copy(prev, cur)
+		for j := 0; j < J; j++ {
+			nu := 0.0
+			if g.Nu != nil {
+				nu = g.Nu[t*J+j]
+			}
+			cell(t, j, nu+b[j]+cur[j])
+		}
+	}
+}
+
+// Category returns the category of latent response y of categorical
+// outcome j.
+func (g *Generator) Category(j int, y float64) int {
+	k := 0
+	for k < len(g.Tau[j]) && y > g.Tau[j][k] {
+		k++
+	}
+	return k
+}
