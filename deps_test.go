@@ -20,6 +20,7 @@ func TestDependencyDirection(t *testing.T) {
 		"check":          {"fit", "cmd", "report", "validate", "compare"},
 		"compare":        {"fit", "cmd", "report", "validate", "check"},
 		"internal/dense": {"model", "sampler", "priors", "report", "fit"},
+		"catalog":        {"model", "sampler", "priors", "latentresp", "diagnostics", "report", "check", "compare", "validate", "fit", "cmd", "internal"},
 	}
 	for pkg, bad := range forbidden {
 		out, err := exec.Command("go", "list", "-deps", "./"+pkg).Output()

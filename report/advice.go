@@ -2,6 +2,7 @@ package report
 
 import (
 	"fmt"
+	"github.com/lagstar/lagstar/catalog"
 	"maps"
 	"math"
 	"math/cmplx"
@@ -30,7 +31,7 @@ const sparseShare = 0.5
 func sparseCause(l *sampler.Layout, counts []int, e Entry) (occ, n int, ok bool) {
 	t := -1
 	switch {
-	case strings.HasPrefix(e.Kind, "initial_"):
+	case firstOccasion(e.Kind):
 		t = 0
 	case e.Occasion != nil:
 		t = slices.Index(l.Panel.Occasions, *e.Occasion)
@@ -58,7 +59,7 @@ func causeAdvice(l *sampler.Layout, bad []Entry) []string {
 	for _, e := range bad {
 		if occ, _, ok := sparseCause(l, counts, e); ok {
 			byOcc[occ] = append(byOcc[occ], e.Name)
-			initial = initial || strings.HasPrefix(e.Kind, "initial_")
+			initial = initial || firstOccasion(e.Kind)
 		}
 	}
 	var out []string
@@ -188,4 +189,11 @@ func explosive(l *sampler.Layout, es []Entry) []string {
 		}
 	}
 	return out
+}
+
+// firstOccasion reports whether entries of the kind rest on the first
+// occasion alone (the first occasion's covariance).
+func firstOccasion(kind string) bool {
+	k, ok := catalog.Lookup(kind)
+	return ok && k.FirstOccasion
 }

@@ -5,6 +5,7 @@ import (
 	"encoding/csv"
 	"encoding/json"
 	"fmt"
+	"github.com/lagstar/lagstar/catalog"
 	"os"
 	"path/filepath"
 	"runtime"
@@ -25,7 +26,7 @@ func DrawsCSV(res *sampler.Result) ([]byte, error) {
 		head = append(head, p.Name)
 	}
 	for i, p := range res.Derived {
-		if p.Table {
+		if catalog.Tabled(p.Kind) {
 			head = append(head, p.Name)
 			dIdx = append(dIdx, i)
 		}

@@ -3,6 +3,7 @@ package report
 import (
 	"encoding/json"
 	"fmt"
+	"github.com/lagstar/lagstar/catalog"
 	"math"
 	"slices"
 	"strconv"
@@ -292,7 +293,7 @@ func entries(ps []sampler.Param, draws [][]float64, kept []int, level float64) [
 			for p := w; p < n; p += workers {
 				par := ps[p]
 				e := Entry{Name: par.Name, Kind: par.Kind, Outcome: par.Outcome, From: par.From, Outcomes: par.Pair,
-					Occasion: par.Occasion, Index: par.Index, table: par.Table, Level: Num(level)}
+					Occasion: par.Occasion, Index: par.Index, table: catalog.Tabled(par.Kind), Level: Num(level)}
 				if minKept == 0 {
 					nan := Num(math.NaN())
 					e.Mean, e.SD, e.Median, e.Lower, e.Upper, e.Rhat, e.ESSBulk, e.ESSTail, e.MCSEMean = nan, nan, nan, nan, nan, nan, nan, nan, nan

@@ -2,21 +2,11 @@ package report
 
 import (
 	"fmt"
+	"github.com/lagstar/lagstar/catalog"
 	"io"
 	"math"
 	"strings"
 )
-
-// tableGroups orders the terminal table.
-var tableGroups = []struct {
-	title string
-	kinds []string
-}{
-	{"Measurement (latent-response scale)", []string{"threshold", "mean"}},
-	{"Between persons (random intercepts)", []string{"ri_variance", "ri_correlation"}},
-	{"Within persons", []string{"autoregression", "crosslag", "innovation_variance", "innovation_correlation", "initial_variance", "initial_correlation"}},
-	{"Derived", []string{"std_autoregression", "std_crosslag", "icc"}},
-}
 
 // Caution is printed under every table and in the README.
 const Caution = "Cross-lagged paths are associations under the model's assumptions, not proof of causation; lagstar gives no clinical advice."
@@ -55,19 +45,17 @@ func WriteTable(w io.Writer, s *Summary) error {
 		fmt.Fprintf(&b, "run until converged: %d %s, %d draws per chain (cap %d), %s\n", rl.Rounds, pick(rl.Rounds == 1, "round", "rounds"), rl.DrawsPerChain, rl.MaxDraws, verdict)
 	}
 	head := fmt.Sprintf("  %-*s %9s %8s %9s %9s %7s %8s %8s\n", width, cols[0], cols[1], cols[2], cols[3], cols[4], cols[5], cols[6], cols[7])
-	for _, g := range tableGroups {
+	for sec, title := range catalog.SectionTitles {
 		var rows []Entry
 		for _, e := range all {
-			for _, k := range g.kinds {
-				if e.Kind == k {
-					rows = append(rows, e)
-				}
+			if k, ok := catalog.Lookup(e.Kind); ok && k.Section == catalog.Section(sec) {
+				rows = append(rows, e)
 			}
 		}
 		if len(rows) == 0 {
 			continue
 		}
-		fmt.Fprintf(&b, "\n%s\n%s", g.title, head)
+		fmt.Fprintf(&b, "\n%s\n%s", title, head)
 		for _, e := range rows {
 			mark := ""
 			if entryBad(e) {

@@ -5,6 +5,7 @@ import (
 	"encoding/csv"
 	"encoding/json"
 	"fmt"
+	"github.com/lagstar/lagstar/catalog"
 	"io"
 	"math"
 	"strconv"
@@ -31,10 +32,7 @@ func ParseSummary(raw []byte) (*Summary, error) {
 	}
 	for _, e := range s.Derived {
 		d := e.entry()
-		switch d.Kind {
-		case "std_autoregression", "std_crosslag", "icc":
-			d.table = true
-		}
+		d.table = catalog.Tabled(d.Kind)
 		out.Derived = append(out.Derived, d)
 	}
 	if recompute {
@@ -98,31 +96,31 @@ func manuscriptRows(s *Summary) []tableRow {
 		e := &s.Derived[i]
 		std[e.Kind+"|"+e.Outcome+"|"+e.From+"|"+occ(e.Occasion)] = e
 	}
+	all := append(append([]*Entry{}, ptrs(s.Parameters)...), ptrs(s.Derived)...)
 	var rows []tableRow
-	add := func(section string, kinds ...string) {
-		for i := range s.Parameters {
-			e := &s.Parameters[i]
-			for _, k := range kinds {
-				if e.Kind != k {
-					continue
-				}
-				r := tableRow{section: section, label: label(e), est: e}
-				if k == "autoregression" || k == "crosslag" {
-					r.std = std["std_"+k+"|"+e.Outcome+"|"+e.From+"|"+occ(e.Occasion)]
-				}
-				rows = append(rows, r)
+	for _, section := range catalog.ManuscriptSections {
+		for _, e := range all {
+			k, ok := catalog.Lookup(e.Kind)
+			if !ok || k.Manuscript != section {
+				continue
 			}
-		}
-	}
-	add("Thresholds", "threshold")
-	add("Between persons", "ri_variance", "ri_correlation")
-	add("Within persons", "autoregression", "crosslag", "innovation_variance", "innovation_correlation")
-	for i := range s.Derived {
-		if e := &s.Derived[i]; e.Kind == "icc" {
-			rows = append(rows, tableRow{section: "Intraclass correlations (latent)", label: label(e), est: e})
+			r := tableRow{section: section, label: label(e), est: e}
+			if k.Standardized != "" {
+				r.std = std[k.Standardized+"|"+e.Outcome+"|"+e.From+"|"+occ(e.Occasion)]
+			}
+			rows = append(rows, r)
 		}
 	}
 	return rows
+}
+
+// ptrs returns pointers to the entries of es.
+func ptrs(es []Entry) []*Entry {
+	out := make([]*Entry, len(es))
+	for i := range es {
+		out[i] = &es[i]
+	}
+	return out
 }
 
 func occ(o *int) string {
@@ -164,31 +162,9 @@ func displayName(o OutcomeInfo) string {
 	return o.Name
 }
 
-// label renders an entry in words for a manuscript.
+// label renders an entry in words for a manuscript (catalog.Kind.Label).
 func label(e *Entry) string {
-	at := ""
-	if e.Occasion != nil {
-		at = fmt.Sprintf(", occasion %d", *e.Occasion)
-	}
-	switch e.Kind {
-	case "threshold":
-		return fmt.Sprintf("%s, threshold %d", e.Outcome, e.Index)
-	case "ri_variance":
-		return fmt.Sprintf("%s, random-intercept variance", e.Outcome)
-	case "ri_correlation":
-		return fmt.Sprintf("%s, random-intercept correlation", pairLabel(e.Outcomes))
-	case "autoregression":
-		return fmt.Sprintf("%s, carry-over%s", e.Outcome, at)
-	case "crosslag":
-		return fmt.Sprintf("%s → %s, cross-lag%s", e.From, e.Outcome, at)
-	case "innovation_variance":
-		return fmt.Sprintf("%s, innovation variance%s", e.Outcome, at)
-	case "innovation_correlation":
-		return fmt.Sprintf("%s, residual correlation%s", pairLabel(e.Outcomes), at)
-	case "icc":
-		return fmt.Sprintf("%s, ICC%s", e.Outcome, at)
-	}
-	return e.Name
+	return catalog.Label(e.Kind, e.Name, catalog.Names{Outcome: e.Outcome, From: e.From, Pair: e.Outcomes, Index: e.Index, Occasion: e.Occasion})
 }
 
 // WriteManuscriptTable writes the key estimates as format md, latex or csv:
@@ -325,4 +301,3 @@ func tex(s string) string {
 var nan = math.NaN()
 
 // pairLabel names a pair of outcomes in a table label ("rested & headache").
-func pairLabel(names []string) string { return strings.Join(names, " & ") }

@@ -19,8 +19,6 @@ type Param struct {
 	Pair     []string
 	Occasion *int
 	Index    int
-	// Table marks quantities shown in the terminal table.
-	Table bool
 }
 
 func (l *Layout) outcomeNames() []string {

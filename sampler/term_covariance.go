@@ -2,6 +2,7 @@ package sampler
 
 import (
 	"fmt"
+	"github.com/lagstar/lagstar/catalog"
 	"math"
 	"math/rand/v2"
 
@@ -64,13 +65,13 @@ func groupParams(l *Layout, initial bool) []Param {
 		}
 		for j := 0; j < l.J; j++ {
 			if g.FreeSD[j] {
-				ps = append(ps, Param{Name: fmt.Sprintf("%s[%s%s]", kindV, names[j], suffix), Kind: kindV, Outcome: names[j], Occasion: o, Table: true})
+				ps = append(ps, Param{Name: fmt.Sprintf("%s[%s%s]", kindV, names[j], suffix), Kind: kindV, Outcome: names[j], Occasion: o})
 			}
 		}
 		if g.Corr {
 			for a := 0; a < l.J; a++ {
 				for b := a + 1; b < l.J; b++ {
-					ps = append(ps, Param{Name: fmt.Sprintf("%s[%s,%s%s]", kindC, names[a], names[b], suffix), Kind: kindC, Pair: []string{names[a], names[b]}, Occasion: o, Table: true})
+					ps = append(ps, Param{Name: fmt.Sprintf("%s[%s,%s%s]", kindC, names[a], names[b], suffix), Kind: kindC, Pair: []string{names[a], names[b]}, Occasion: o})
 				}
 			}
 		}
@@ -209,4 +210,15 @@ func (firstOccasionTerm) Blocks(l *Layout, _ Options) []Placed {
 		return nil
 	}
 	return []Placed{{slotCov, NewCovBlock(l)}}
+}
+
+func init() {
+	catalog.Register(
+		catalog.Kind{Name: "innovation_variance", Section: catalog.Within, Tabled: true, Manuscript: "Within persons",
+			Label: func(n catalog.Names) string { return n.Outcome + ", innovation variance" + n.At() }},
+		catalog.Kind{Name: "innovation_correlation", Section: catalog.Within, Tabled: true, Manuscript: "Within persons",
+			Label: func(n catalog.Names) string { return n.PairLabel() + ", residual correlation" + n.At() }},
+		catalog.Kind{Name: "initial_variance", Section: catalog.Within, Tabled: true, FirstOccasion: true},
+		catalog.Kind{Name: "initial_correlation", Section: catalog.Within, Tabled: true, FirstOccasion: true},
+	)
 }

@@ -2,6 +2,7 @@ package sampler
 
 import (
 	"fmt"
+	"github.com/lagstar/lagstar/catalog"
 	"math"
 	"math/rand/v2"
 
@@ -22,11 +23,11 @@ func (interceptTerm) Params(l *Layout) []Param {
 	var ps []Param
 	names := l.outcomeNames()
 	for j := 0; j < l.J; j++ {
-		ps = append(ps, Param{Name: fmt.Sprintf("ri_variance[%s]", names[j]), Kind: "ri_variance", Outcome: names[j], Table: true})
+		ps = append(ps, Param{Name: fmt.Sprintf("ri_variance[%s]", names[j]), Kind: "ri_variance", Outcome: names[j]})
 	}
 	for a := 0; a < l.J; a++ {
 		for b := a + 1; b < l.J; b++ {
-			ps = append(ps, Param{Name: fmt.Sprintf("ri_correlation[%s,%s]", names[a], names[b]), Kind: "ri_correlation", Pair: []string{names[a], names[b]}, Table: true})
+			ps = append(ps, Param{Name: fmt.Sprintf("ri_correlation[%s,%s]", names[a], names[b]), Kind: "ri_correlation", Pair: []string{names[a], names[b]}})
 		}
 	}
 	return ps
@@ -116,7 +117,7 @@ func (interceptTerm) DerivedParams(l *Layout) []Param {
 			suffix = fmt.Sprintf(",t=%d", *o)
 		}
 		for j := 0; j < l.J; j++ {
-			ps = append(ps, Param{Name: fmt.Sprintf("icc[%s%s]", names[j], suffix), Kind: "icc", Outcome: names[j], Occasion: o, Table: true})
+			ps = append(ps, Param{Name: fmt.Sprintf("icc[%s%s]", names[j], suffix), Kind: "icc", Outcome: names[j], Occasion: o})
 		}
 	}
 	return ps
@@ -151,4 +152,15 @@ func (l *Layout) iccOccasions() []int {
 		out[t] = t
 	}
 	return out
+}
+
+func init() {
+	catalog.Register(
+		catalog.Kind{Name: "ri_variance", Section: catalog.Between, Tabled: true, Manuscript: "Between persons",
+			Label: func(n catalog.Names) string { return n.Outcome + ", random-intercept variance" }},
+		catalog.Kind{Name: "ri_correlation", Section: catalog.Between, Tabled: true, Manuscript: "Between persons",
+			Label: func(n catalog.Names) string { return n.PairLabel() + ", random-intercept correlation" }},
+		catalog.Kind{Name: "icc", Section: catalog.Derived, Tabled: true, Manuscript: "Intraclass correlations (latent)",
+			Label: func(n catalog.Names) string { return n.Outcome + ", ICC" + n.At() }},
+	)
 }

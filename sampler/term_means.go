@@ -2,6 +2,7 @@ package sampler
 
 import (
 	"fmt"
+	"github.com/lagstar/lagstar/catalog"
 	"math/rand/v2"
 
 	"github.com/lagstar/lagstar/priors"
@@ -37,7 +38,7 @@ func (meanTerm) Params(l *Layout) []Param {
 	var ps []Param
 	names := l.outcomeNames()
 	eachMean(l, func(_, t, j int) {
-		p := Param{Kind: "mean", Outcome: names[j], Table: true}
+		p := Param{Kind: "mean", Outcome: names[j]}
 		if l.MeansFree {
 			p.Occasion = l.occasion(t)
 			p.Name = fmt.Sprintf("mean[%s,t=%d]", names[j], *p.Occasion)
@@ -82,4 +83,8 @@ func (meanTerm) Prior(s *State, pr priors.Set, rng *rand.Rand) {
 
 func (meanTerm) Blocks(l *Layout, _ Options) []Placed {
 	return []Placed{{slotMeans, NewMeanBlock(l)}}
+}
+
+func init() {
+	catalog.Register(catalog.Kind{Name: "mean", Section: catalog.Measurement, Tabled: true})
 }

@@ -2,6 +2,7 @@ package sampler
 
 import (
 	"fmt"
+	"github.com/lagstar/lagstar/catalog"
 	"math"
 	"math/rand/v2"
 
@@ -51,9 +52,9 @@ func pathParams(l *Layout, prefix string) []Param {
 					continue
 				}
 				if r == c {
-					ps = append(ps, Param{Name: fmt.Sprintf("%sautoregression[%s%s]", prefix, names[r], suffix), Kind: prefix + "autoregression", Outcome: names[r], Occasion: o, Table: true})
+					ps = append(ps, Param{Name: fmt.Sprintf("%sautoregression[%s%s]", prefix, names[r], suffix), Kind: prefix + "autoregression", Outcome: names[r], Occasion: o})
 				} else {
-					ps = append(ps, Param{Name: fmt.Sprintf("%scrosslag[%s->%s%s]", prefix, names[c], names[r], suffix), Kind: prefix + "crosslag", Outcome: names[r], From: names[c], Occasion: o, Table: true})
+					ps = append(ps, Param{Name: fmt.Sprintf("%scrosslag[%s->%s%s]", prefix, names[c], names[r], suffix), Kind: prefix + "crosslag", Outcome: names[r], From: names[c], Occasion: o})
 				}
 			}
 		}
@@ -182,4 +183,15 @@ func (s *State) setPaths(t int, a []float64) {
 	for u := 1; u < s.L.T; u++ {
 		copy(s.A[u*JJ:(u+1)*JJ], a)
 	}
+}
+
+func init() {
+	catalog.Register(
+		catalog.Kind{Name: "autoregression", Section: catalog.Within, Tabled: true, Manuscript: "Within persons", Standardized: "std_autoregression",
+			Label: func(n catalog.Names) string { return n.Outcome + ", carry-over" + n.At() }},
+		catalog.Kind{Name: "crosslag", Section: catalog.Within, Tabled: true, Manuscript: "Within persons", Standardized: "std_crosslag",
+			Label: func(n catalog.Names) string { return n.From + " → " + n.Outcome + ", cross-lag" + n.At() }},
+		catalog.Kind{Name: "std_autoregression", Section: catalog.Derived, Tabled: true},
+		catalog.Kind{Name: "std_crosslag", Section: catalog.Derived, Tabled: true},
+	)
 }

@@ -2,6 +2,7 @@ package sampler
 
 import (
 	"fmt"
+	"github.com/lagstar/lagstar/catalog"
 	"math"
 	"math/rand/v2"
 	"slices"
@@ -26,7 +27,7 @@ func (thresholdTerm) Params(l *Layout) []Param {
 	names := l.outcomeNames()
 	for j := 0; j < l.J; j++ {
 		for k := 1; k < l.K[j] && l.Cat[j]; k++ {
-			ps = append(ps, Param{Name: fmt.Sprintf("threshold[%s,%d]", names[j], k), Kind: "threshold", Outcome: names[j], Index: k, Table: true})
+			ps = append(ps, Param{Name: fmt.Sprintf("threshold[%s,%d]", names[j], k), Kind: "threshold", Outcome: names[j], Index: k})
 		}
 	}
 	return ps
@@ -158,4 +159,12 @@ func (thresholdTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []
 		}
 	}
 	return dst
+}
+
+func init() {
+	catalog.Register(
+		catalog.Kind{Name: "threshold", Section: catalog.Measurement, Tabled: true, Manuscript: "Thresholds",
+			Label: func(n catalog.Names) string { return fmt.Sprintf("%s, threshold %d", n.Outcome, n.Index) }},
+		catalog.Kind{Name: "category_probability", Section: catalog.Derived},
+	)
 }
