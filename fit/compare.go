@@ -6,7 +6,7 @@ import (
 
 	"github.com/lagstar/lagstar/compare"
 	"github.com/lagstar/lagstar/model"
-	"github.com/lagstar/lagstar/report"
+	"github.com/lagstar/lagstar/runfolder"
 	"github.com/lagstar/lagstar/sampler"
 )
 
@@ -35,25 +35,25 @@ func Compare(o CompareOptions) ([]compare.ModelResult, error) {
 	var fits []compare.ModelFit
 	sha := ""
 	for m, dir := range o.RunDirs {
-		run, err := loadRun(dir)
+		run, err := runfolder.OpenFinished(dir)
 		if err != nil {
 			return nil, err
 		}
 		if sha == "" {
-			sha = run.rec.DataSHA256
-		} else if run.rec.DataSHA256 != sha {
+			sha = run.Record.DataSHA256
+		} else if run.Record.DataSHA256 != sha {
 			return nil, model.Inputf(dir, 0, "was fitted to other data than %s; models can be compared only on the same data", o.RunDirs[0])
 		}
-		draws := sampler.EvenlySpaced(run.draws, o.Draws)
+		draws := sampler.EvenlySpaced(run.Draws, o.Draws)
 		var progress func(done, total int)
 		if o.Progress != nil {
 			progress = func(done, total int) { o.Progress(m, len(o.RunDirs), done, total) }
 		}
-		ll, rel, err := compare.LogLikProgress(run.layout, draws, o.GHKPoints, progress)
+		ll, rel, err := compare.LogLikProgress(run.Layout, draws, o.GHKPoints, progress)
 		if err != nil {
 			return nil, model.Inputf(dir, 0, "%v", err)
 		}
-		fits = append(fits, compare.ModelFit{Name: filepath.Base(filepath.Clean(dir)), LL: ll, GHKSE: rel, Unconverged: run.unconverged})
+		fits = append(fits, compare.ModelFit{Name: filepath.Base(filepath.Clean(dir)), LL: ll, GHKSE: rel, Unconverged: run.Unconverged})
 	}
 	res, err := compare.Compare(fits)
 	if err != nil {
@@ -64,7 +64,7 @@ func Compare(o CompareOptions) ([]compare.ModelResult, error) {
 		if err != nil {
 			return nil, err
 		}
-		if err := report.WriteAtomic(o.Out, append(b, '\n')); err != nil {
+		if err := runfolder.WriteAtomic(o.Out, append(b, '\n')); err != nil {
 			return nil, err
 		}
 	}

@@ -10,12 +10,12 @@ import (
 	"errors"
 	"fmt"
 	"os"
-	"path/filepath"
 	"time"
 
 	"github.com/lagstar/lagstar/model"
 	"github.com/lagstar/lagstar/priors"
 	"github.com/lagstar/lagstar/report"
+	"github.com/lagstar/lagstar/runfolder"
 	"github.com/lagstar/lagstar/sampler"
 )
 
@@ -59,7 +59,7 @@ type Options struct {
 type Outcome struct {
 	Summary *report.Summary
 	Result  *sampler.Result
-	Record  report.RunRecord
+	Record  runfolder.Record
 }
 
 // Prepare reads, checks and identifies the model, returning its layout.
@@ -144,35 +144,35 @@ func Fit(ctx context.Context, o Options) (*Outcome, error) {
 	if j.dir != "" {
 		// A folder that is a file or holds files of the user's is refused
 		// before anything (even the lock) is written there.
-		if _, _, err := inspectOut(j.dir); err != nil {
+		if _, _, err := runfolder.Inspect(j.dir); err != nil {
 			return nil, err
 		}
 		if err := os.MkdirAll(j.dir, 0o755); err != nil {
 			return nil, fmt.Errorf("create output folder: %w", err)
 		}
-		unlock, err := lockRun(j.dir)
+		unlock, err := runfolder.Lock(j.dir)
 		if err != nil {
 			return nil, err
 		}
 		defer unlock()
-		state, rec, err := inspectOut(j.dir)
+		state, rec, err := runfolder.Inspect(j.dir)
 		if err != nil {
 			return nil, err
 		}
 		switch {
-		case state == unfinished && !o.Overwrite:
+		case state == runfolder.Unfinished && !o.Overwrite:
 			return nil, model.Inputf(j.dir, 0, "holds an unfinished run; finish it with lagstar fit --resume %s, choose another --out folder, or give --overwrite to discard it", j.dir)
-		case state == finished && !o.Overwrite:
+		case state == runfolder.Finished && !o.Overwrite:
 			return nil, model.Inputf(j.dir, 0, "holds a finished run (status %s, started %s); give --overwrite to replace it (all its files and figures are removed first), or choose another --out folder", rec.Status, rec.Started.Format("2006-01-02 15:04"))
-		case state != noRun:
-			if err := clearRun(j.dir); err != nil {
+		case state != runfolder.NoRun:
+			if err := runfolder.Clear(j.dir); err != nil {
 				return nil, fmt.Errorf("removing the earlier run in %s: %w", j.dir, err)
 			}
 		}
-		if err := report.BeginRun(j.dir, l.Panel.Raw, j.record(nil)); err != nil {
+		if err := runfolder.Begin(j.dir, l.Panel.Raw, j.record(nil)); err != nil {
 			return nil, fmt.Errorf("writing %s: %w", j.dir, err)
 		}
-		if err := j.prepareCheckpoints(); err != nil {
+		if j.opt.Checkpoint, err = runfolder.PrepareCheckpoints(j.dir); err != nil {
 			return nil, err
 		}
 	}
@@ -193,8 +193,8 @@ func (j *job) failed(err error) error {
 		// disk): keep the checkpoints written so far for a resume.
 		err = fmt.Errorf("the run stopped: %w; make room (or repair %s) and finish it with lagstar fit --resume %s", err, j.dir, j.dir)
 		rec := j.record(nil)
-		rec.Status, rec.Error = report.StatusInterrupted, err.Error()
-		if werr := report.WriteRunRecord(j.dir, rec); werr != nil {
+		rec.Status, rec.Error = runfolder.StatusInterrupted, err.Error()
+		if werr := runfolder.WriteRecord(j.dir, rec); werr != nil {
 			return fmt.Errorf("%w (and writing run.json: %v)", err, werr)
 		}
 		return err
@@ -202,11 +202,11 @@ func (j *job) failed(err error) error {
 	err = fmt.Errorf("sampling failed: %w", err)
 	if j.dir != "" {
 		rec := j.record(nil)
-		rec.Status, rec.Error = report.StatusFailed, err.Error()
-		if werr := report.WriteRunRecord(j.dir, rec); werr != nil {
+		rec.Status, rec.Error = runfolder.StatusFailed, err.Error()
+		if werr := runfolder.WriteRecord(j.dir, rec); werr != nil {
 			return fmt.Errorf("%w (and writing %s: %v)", err, j.dir, werr)
 		}
-		os.RemoveAll(filepath.Join(j.dir, checkpointDir))
+		runfolder.RemoveCheckpoints(j.dir)
 	}
 	return err
 }
@@ -226,14 +226,14 @@ type job struct {
 
 // record is the run.json of the job: of res when it is not nil, else of a
 // fit that is starting or between rounds.
-func (j *job) record(res *sampler.Result) report.RunRecord {
+func (j *job) record(res *sampler.Result) runfolder.Record {
 	running := res == nil
 	if running {
 		res = &sampler.Result{Layout: j.l, Options: j.opt, Kept: make([]int, j.opt.Chains)}
 	}
-	rec := report.NewRunRecord(res, Version, j.started)
+	rec := runfolder.NewRecord(res, Version, j.started)
 	if running {
-		rec.Status, rec.Complete = report.StatusRunning, false
+		rec.Status, rec.Complete = runfolder.StatusRunning, false
 	}
 	rec.Level, rec.UntilConverged, rec.CheckpointEvery = j.level, j.untilConverged, j.opt.CheckpointEvery
 	if j.untilConverged {
@@ -268,7 +268,7 @@ func (j *job) finish(ctx context.Context, runner *sampler.Runner) (*Outcome, err
 				// A run stopped without warning in this round resumes into it.
 				rec := j.record(nil)
 				rec.Kept = res.Kept
-				if err := report.WriteRunRecord(j.dir, rec); err != nil {
+				if err := runfolder.WriteRecord(j.dir, rec); err != nil {
 					return nil, fmt.Errorf("writing %s: %w", j.dir, err)
 				}
 			}
@@ -283,11 +283,11 @@ func (j *job) finish(ctx context.Context, runner *sampler.Runner) (*Outcome, err
 	sum.RunLength = rl
 	rec := j.record(res)
 	if j.dir != "" {
-		if err := report.WriteRun(j.dir, res, sum, rec); err != nil {
+		if err := runfolder.WriteResult(j.dir, res, sum, rec); err != nil {
 			return nil, fmt.Errorf("writing %s: %w", j.dir, err)
 		}
 		if !res.Incomplete {
-			if err := os.RemoveAll(filepath.Join(j.dir, checkpointDir)); err != nil {
+			if err := runfolder.RemoveCheckpoints(j.dir); err != nil {
 				return nil, err
 			}
 		}

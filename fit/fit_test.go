@@ -16,6 +16,7 @@ import (
 
 	"github.com/lagstar/lagstar/examples"
 	"github.com/lagstar/lagstar/report"
+	"github.com/lagstar/lagstar/runfolder"
 )
 
 // TestSameSeedSameDrawsAnyGOMAXPROCS runs the bundled example three times with
@@ -164,7 +165,7 @@ func TestResumeAfterInterrupt(t *testing.T) {
 	o := Options{Chains: 3, Warmup: 40, Draws: 60, Seed: 21, CheckpointEvery: 25, CheckpointSet: true}
 	want := t.TempDir()
 	fitDir(t, context.Background(), want, o)
-	if _, err := os.Stat(filepath.Join(want, checkpointDir)); !os.IsNotExist(err) {
+	if _, err := os.Stat(filepath.Join(want, runfolder.CheckpointDir)); !os.IsNotExist(err) {
 		t.Errorf("a complete run keeps its checkpoints (stat: %v)", err)
 	}
 
@@ -178,14 +179,14 @@ func TestResumeAfterInterrupt(t *testing.T) {
 		}
 	}
 	out := fitDir(t, ctx, dir, cut)
-	if !out.Result.Incomplete || out.Record.Complete || out.Record.Status != report.StatusInterrupted {
+	if !out.Result.Incomplete || out.Record.Complete || out.Record.Status != runfolder.StatusInterrupted {
 		t.Fatalf("stopped fit: incomplete %v, record complete %v status %q", out.Result.Incomplete, out.Record.Complete, out.Record.Status)
 	}
 	if s := string(readFile(t, filepath.Join(dir, "run.json"))); !strings.Contains(s, `"status": "interrupted"`) {
 		t.Error("run.json does not say interrupted")
 	}
 	for c := 0; c < o.Chains; c++ {
-		if _, err := os.Stat(checkpointFile(dir, c)); err != nil {
+		if _, err := os.Stat(runfolder.CheckpointFile(dir, c)); err != nil {
 			t.Errorf("no checkpoint for chain %d: %v", c+1, err)
 		}
 	}
@@ -203,7 +204,7 @@ func TestResumeAfterInterrupt(t *testing.T) {
 		t.Fatal("resumed run not complete")
 	}
 	sameOutputs(t, want, dir)
-	if _, err := os.Stat(filepath.Join(dir, checkpointDir)); !os.IsNotExist(err) {
+	if _, err := os.Stat(filepath.Join(dir, runfolder.CheckpointDir)); !os.IsNotExist(err) {
 		t.Errorf("checkpoints kept after the run completed (stat: %v)", err)
 	}
 	if _, err := Resume(context.Background(), ResumeOptions{RunDir: dir}); err == nil || !strings.Contains(err.Error(), "already complete") {
@@ -230,8 +231,8 @@ func TestResumeAfterKill(t *testing.T) {
 		mu.Lock()
 		defer mu.Unlock()
 		if (chain == 0 && done == 41) || (chain == 1 && done == 21) {
-			b := readFile(t, checkpointFile(dir, chain))
-			os.WriteFile(filepath.Join(saved, filepath.Base(checkpointFile(dir, chain))), b, 0o644)
+			b := readFile(t, runfolder.CheckpointFile(dir, chain))
+			os.WriteFile(filepath.Join(saved, filepath.Base(runfolder.CheckpointFile(dir, chain))), b, 0o644)
 		}
 		if chain == 0 && done == 1 {
 			os.WriteFile(filepath.Join(saved, "run.json"), readFile(t, filepath.Join(dir, "run.json")), 0o644)
@@ -239,12 +240,12 @@ func TestResumeAfterKill(t *testing.T) {
 	}
 	fitDir(t, context.Background(), dir, cut)
 	// Put the folder back as the kill left it.
-	os.RemoveAll(filepath.Join(dir, checkpointDir))
+	os.RemoveAll(filepath.Join(dir, runfolder.CheckpointDir))
 	os.Remove(filepath.Join(dir, "summary.json"))
 	os.Remove(filepath.Join(dir, "draws.csv"))
-	os.MkdirAll(filepath.Join(dir, checkpointDir), 0o755)
+	os.MkdirAll(filepath.Join(dir, runfolder.CheckpointDir), 0o755)
 	for _, c := range []int{0, 1} {
-		os.WriteFile(checkpointFile(dir, c), readFile(t, filepath.Join(saved, filepath.Base(checkpointFile(dir, c)))), 0o644)
+		os.WriteFile(runfolder.CheckpointFile(dir, c), readFile(t, filepath.Join(saved, filepath.Base(runfolder.CheckpointFile(dir, c)))), 0o644)
 	}
 	running := readFile(t, filepath.Join(saved, "run.json"))
 	if !strings.Contains(string(running), `"status": "running"`) {
@@ -344,7 +345,7 @@ func TestRunFolderLock(t *testing.T) {
 	m, d := examples.SleepDiary()
 	o := Options{ModelPath: "m.yaml", ModelRaw: m, DataRaw: d, OutDir: dir, Chains: 1, Warmup: 5, Draws: 5, Seed: 1, SeedSet: true}
 	// Held by a running process: this test's parent (the go command).
-	lock := filepath.Join(dir, lockFile)
+	lock := filepath.Join(dir, runfolder.LockFile)
 	if err := os.WriteFile(lock, []byte(strconv.Itoa(os.Getppid())+"\n"), 0o644); err != nil {
 		t.Fatal(err)
 	}
@@ -403,8 +404,8 @@ func TestCheckpointWriteFailure(t *testing.T) {
 	cut.Progress = func(chain, chains, done, total int) {
 		if done == 15 {
 			once.Do(func() {
-				os.RemoveAll(filepath.Join(dir, checkpointDir))
-				os.WriteFile(filepath.Join(dir, checkpointDir), []byte("not a folder"), 0o644)
+				os.RemoveAll(filepath.Join(dir, runfolder.CheckpointDir))
+				os.WriteFile(filepath.Join(dir, runfolder.CheckpointDir), []byte("not a folder"), 0o644)
 			})
 		}
 	}
@@ -417,7 +418,7 @@ func TestCheckpointWriteFailure(t *testing.T) {
 	if s := string(readFile(t, filepath.Join(dir, "run.json"))); !strings.Contains(s, `"status": "interrupted"`) {
 		t.Fatalf("run.json after the failed checkpoint:\n%s", s)
 	}
-	os.Remove(filepath.Join(dir, checkpointDir))
+	os.Remove(filepath.Join(dir, runfolder.CheckpointDir))
 	if _, err := Resume(context.Background(), ResumeOptions{RunDir: dir}); err != nil {
 		t.Fatal(err)
 	}

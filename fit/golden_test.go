@@ -16,6 +16,7 @@ import (
 	"github.com/lagstar/lagstar/compare"
 	"github.com/lagstar/lagstar/model"
 	"github.com/lagstar/lagstar/report"
+	"github.com/lagstar/lagstar/runfolder"
 	"github.com/lagstar/lagstar/sampler"
 )
 
@@ -189,12 +190,12 @@ func goldenRun(t *testing.T, name, yaml string, csv []byte) []byte {
 	if err := report.WriteTable(&g, out.Summary); err != nil {
 		t.Fatal(err)
 	}
-	run, err := loadRun(dir)
+	run, err := runfolder.OpenFinished(dir)
 	if err != nil {
 		t.Fatalf("%s: %v", name, err)
 	}
 	section("check (20 replicates)")
-	cr, err := check.Run(run.layout, run.draws, 20, 3)
+	cr, err := check.Run(run.Layout, run.Draws, 20, 3)
 	if err != nil {
 		t.Fatalf("%s: check: %v", name, err)
 	}
@@ -215,7 +216,7 @@ func goldenRun(t *testing.T, name, yaml string, csv []byte) []byte {
 	g.Write(b)
 	g.WriteString("\n")
 	section("log-likelihood of the first 5 persons under 3 draws (40 GHK points)")
-	ll, _, err := compare.LogLik(run.layout, run.draws[:3], 40)
+	ll, _, err := compare.LogLik(run.Layout, run.Draws[:3], 40)
 	if err != nil {
 		t.Fatalf("%s: loglik: %v", name, err)
 	}

@@ -8,7 +8,7 @@ import (
 
 	"github.com/lagstar/lagstar/internal/dense"
 	"github.com/lagstar/lagstar/model"
-	"github.com/lagstar/lagstar/report"
+	"github.com/lagstar/lagstar/runfolder"
 	"github.com/lagstar/lagstar/sampler"
 )
 
@@ -46,7 +46,7 @@ func Simulate(o SimulateOptions) ([]byte, error) {
 		return nil, model.Inputf(o.TruthPath, 0, "%v", err)
 	}
 	if o.Out != "" {
-		if err := report.WriteAtomic(o.Out, csv); err != nil {
+		if err := runfolder.WriteAtomic(o.Out, csv); err != nil {
 			return nil, err
 		}
 	}

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/csv"
 	"fmt"
+	"github.com/lagstar/lagstar/runfolder"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -63,7 +64,7 @@ func WriteSBC(dir string, results []*SBCResult, verdicts []Verdict, cut float64)
 		if err := report.RankHistogramsPNG(&png, title, titles, counts, r.Config.Reps); err != nil {
 			return err
 		}
-		if err := report.WriteAtomic(filepath.Join(dir, "sbc_"+slug(r.Scenario.Name)+".png"), png.Bytes()); err != nil {
+		if err := runfolder.WriteAtomic(filepath.Join(dir, "sbc_"+slug(r.Scenario.Name)+".png"), png.Bytes()); err != nil {
 			return err
 		}
 	}
@@ -79,13 +80,13 @@ func WriteSBC(dir string, results []*SBCResult, verdicts []Verdict, cut float64)
 		vw.Write([]string{v.Scenario, v.Param, strconv.FormatFloat(v.PValue, 'g', 4, 64), strconv.FormatFloat(cut, 'g', 3, 64), verdict})
 	}
 	vw.Flush()
-	if err := report.WriteAtomic(filepath.Join(dir, "sbc_ranks.csv"), rb.Bytes()); err != nil {
+	if err := runfolder.WriteAtomic(filepath.Join(dir, "sbc_ranks.csv"), rb.Bytes()); err != nil {
 		return err
 	}
-	if err := report.WriteAtomic(filepath.Join(dir, "sbc_verdicts.csv"), vb.Bytes()); err != nil {
+	if err := runfolder.WriteAtomic(filepath.Join(dir, "sbc_verdicts.csv"), vb.Bytes()); err != nil {
 		return err
 	}
-	return report.WriteAtomic(filepath.Join(dir, "sbc_summary.md"), []byte(SummaryTable(results, verdicts, cut)))
+	return runfolder.WriteAtomic(filepath.Join(dir, "sbc_summary.md"), []byte(SummaryTable(results, verdicts, cut)))
 }
 
 // SummaryTable renders one Markdown row per scenario: parameters,

@@ -7,8 +7,8 @@ import (
 	"io"
 
 	"github.com/lagstar/lagstar/fit"
-	"github.com/lagstar/lagstar/model"
 	"github.com/lagstar/lagstar/report"
+	"github.com/lagstar/lagstar/runfolder"
 	"github.com/spf13/cobra"
 )
 
@@ -42,13 +42,9 @@ Markdown, latex: a tabular, csv: one row per quantity).`,
 			default:
 				return &usageError{fmt.Errorf("--table: expected md, latex or csv, got %q", table)}
 			}
-			raw, err := model.ReadRunFile(args[0], "summary.json")
+			s, err := runfolder.ReadSummary(args[0])
 			if err != nil {
 				return err
-			}
-			s, err := report.ParseSummary(raw)
-			if err != nil {
-				return model.Inputf(args[0], 0, "%v", err)
 			}
 			warnUnfinished(stderr, args[0], s)
 			var b bytes.Buffer
@@ -59,7 +55,7 @@ Markdown, latex: a tabular, csv: one row per quantity).`,
 				_, err = stdout.Write(b.Bytes())
 				return err
 			}
-			if err := report.WriteAtomic(out, b.Bytes()); err != nil {
+			if err := runfolder.WriteAtomic(out, b.Bytes()); err != nil {
 				return err
 			}
 			fmt.Fprintf(stderr, "wrote %s\n", out)

@@ -1,4 +1,4 @@
-package fit
+package runfolder
 
 import (
 	"errors"
@@ -12,16 +12,11 @@ import (
 	"github.com/lagstar/lagstar/model"
 )
 
-// lockFile marks a run folder as in use by a fit or a resume, so that a
-// second one started on the same folder (a resume typed while the first
-// still runs) cannot interleave its writes with the first's.
-const lockFile = ".lagstar.lock"
-
-// lockRun takes dir's lock for this process and returns its release. A
+// Lock takes dir's lock for this process and returns its release. A
 // lock left by a process that no longer runs (killed without warning) is
 // taken over.
-func lockRun(dir string) (func(), error) {
-	path := filepath.Join(dir, lockFile)
+func Lock(dir string) (func(), error) {
+	path := filepath.Join(dir, LockFile)
 	for range 3 {
 		f, err := os.OpenFile(path, os.O_CREATE|os.O_EXCL|os.O_WRONLY, 0o644)
 		if err == nil {
