@@ -10,6 +10,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 )
 
 // A checkpoint is one chain's whole state between two sweeps: its random
@@ -56,6 +57,9 @@ type chainCheckpoint struct {
 	// panel cost tens of sweeps.
 	Ystar, B, Mean, Nu, A, Sig, Psi []byte
 	Tau, SD, R                      [][]float64
+	// Own holds each active term's per-term values (State.Own), in
+	// Layout.Terms order; empty in checkpoints of layouts without any.
+	Own [][]float64
 
 	Blocks         [][]byte // AdaptState() values of each block, gob-encoded, in sweep order
 	Draws, Derived []byte
@@ -107,7 +111,7 @@ func (r *Runner) checkpoint(c int) ([]byte, error) {
 	cp := chainCheckpoint{Format: checkpointFormat, Fingerprint: r.fp, Chain: c, Sweeps: ch.sweeps,
 		Target: r.res.Options.Draws, Kept: r.res.Kept[c],
 		Ystar: packFloats(st.Ystar), B: packFloats(st.B), Mean: packFloats(st.Mean), Nu: packFloats(st.Nu), A: packFloats(st.A),
-		Sig: packFloats(st.Sig), Psi: packFloats(st.Psi), Tau: st.Tau, SD: st.SD, R: st.R,
+		Sig: packFloats(st.Sig), Psi: packFloats(st.Psi), Tau: st.Tau, SD: st.SD, R: st.R, Own: st.own,
 		Draws: packFloats(r.res.Draws[c]), Derived: packFloats(r.res.DerivedDraws[c])}
 	var err error
 	if cp.Rng, err = ch.src.MarshalBinary(); err != nil {
@@ -186,6 +190,16 @@ func (r *Runner) restore(c int, data []byte) (target int, err error) {
 			return bad("its threshold counts do not match the model")
 		}
 	}
+	if len(cp.Own) != 0 || slices.ContainsFunc(st.own, func(x []float64) bool { return len(x) > 0 }) {
+		if len(cp.Own) != len(st.own) {
+			return bad("its model terms do not match the model")
+		}
+		for k := range cp.Own {
+			if len(cp.Own[k]) != len(st.own[k]) {
+				return bad("its model terms' sizes do not match the model")
+			}
+		}
+	}
 	for g := range cp.SD {
 		if len(cp.SD[g]) != len(st.SD[g]) || len(cp.R[g]) != len(st.R[g]) {
 			return bad("its covariance sizes do not match the model")
@@ -231,6 +245,9 @@ func (r *Runner) restore(c int, data []byte) (target int, err error) {
 	for g := range cp.SD {
 		copy(st.SD[g], cp.SD[g])
 		copy(st.R[g], cp.R[g])
+	}
+	for k := range cp.Own {
+		copy(st.own[k], cp.Own[k])
 	}
 	st.Mom.ok = false
 	if err := st.Refresh(); err != nil {

@@ -267,6 +267,11 @@ func (s *State) nonFinite(latent bool) string {
 			return x.name
 		}
 	}
+	for k, x := range s.own {
+		if bad(x) >= 0 {
+			return "a value of the term " + s.L.Terms[k].Name()
+		}
+	}
 	return ""
 }
 
