@@ -26,7 +26,7 @@ import (
 func edgeFit(t *testing.T, m string, d []byte) map[string]float64 {
 	t.Helper()
 	dir := t.TempDir()
-	out, err := Fit(context.Background(), Options{ModelPath: "m.yaml", ModelRaw: []byte(m), DataRaw: d, OutDir: dir,
+	out, err := Fit(context.Background(), Options{FixedLength: true, ModelPath: "m.yaml", ModelRaw: []byte(m), DataRaw: d, OutDir: dir,
 		Chains: 2, Warmup: 300, Draws: 200, Seed: 12, SeedSet: true})
 	if err != nil {
 		t.Fatal(err)

@@ -40,11 +40,17 @@ type Options struct {
 	Seed                  uint64
 	SeedSet               bool
 	Level                 float64 // central interval level; 0 means 0.95
-	// UntilConverged (or the model file's sampler.until_converged) extends
-	// sampling in rounds, doubling the draws, until report.Converged holds
-	// or MaxDraws per chain (0: the model file's, default 20000) is reached.
+	// A fit runs until converged unless FixedLength is set or the model
+	// file says sampler.until_converged: false: it extends sampling in
+	// rounds sized from the ESS rate so far (report.NextDraws) until
+	// report.Converged holds, MaxDraws per chain (0: the model file's,
+	// default 20000) is reached, or TimeLimit (0: the model file's, default
+	// none) of sampling would be passed. UntilConverged forces it on over
+	// the model file's false; FixedLength keeps the first round's draws.
 	UntilConverged bool
+	FixedLength    bool
 	MaxDraws       int
+	TimeLimit      time.Duration
 	// CheckpointEvery (when CheckpointSet) overrides the model file's
 	// sampler.checkpoint_every: sweeps between chain checkpoints.
 	CheckpointEvery int
@@ -137,9 +143,18 @@ func Fit(ctx context.Context, o Options) (*Outcome, error) {
 		opt.Seed = NewSeed()
 	}
 	j := &job{l: l, opt: opt, dir: o.OutDir, level: o.Level, started: time.Now(), rounds: 1,
-		untilConverged: o.UntilConverged || ss.UntilConverged, maxDraws: ss.MaxDraws}
+		untilConverged: !o.FixedLength && (o.UntilConverged || ss.UntilConverged), maxDraws: ss.MaxDraws, timeLimit: ss.TimeLimit}
 	if o.MaxDraws > 0 {
 		j.maxDraws = o.MaxDraws
+	}
+	if o.TimeLimit > 0 {
+		j.timeLimit = o.TimeLimit
+	}
+	if o.UntilConverged && o.FixedLength {
+		return nil, model.Inputf("", 0, "--until-converged and --fixed-length contradict each other; give one")
+	}
+	if j.untilConverged && j.maxDraws < opt.Draws {
+		j.maxDraws = opt.Draws // the cap never cuts the first round
 	}
 	if j.dir != "" {
 		// A folder that is a file or holds files of the user's is refused
@@ -221,6 +236,7 @@ type job struct {
 	priorWall      float64 // seconds spent before a resume
 	untilConverged bool
 	maxDraws       int
+	timeLimit      time.Duration
 	rounds         int
 }
 
@@ -238,6 +254,7 @@ func (j *job) record(res *sampler.Result) runfolder.Record {
 	rec.Level, rec.UntilConverged, rec.CheckpointEvery = j.level, j.untilConverged, j.opt.CheckpointEvery
 	if j.untilConverged {
 		rec.MaxDraws, rec.Rounds = j.maxDraws, j.rounds
+		rec.TimeLimitSeconds = j.timeLimit.Seconds()
 	}
 	rec.WallSeconds += report.Num(j.priorWall)
 	return rec
@@ -250,20 +267,43 @@ func (j *job) finish(ctx context.Context, runner *sampler.Runner) (*Outcome, err
 	res := runner.Result()
 	var rl *report.RunLength
 	if j.untilConverged {
-		rl = &report.RunLength{MaxDraws: j.maxDraws}
+		rl = &report.RunLength{MaxDraws: j.maxDraws, TimeLimitSeconds: j.timeLimit.Seconds()}
+		// Seconds per kept sweep per chain, measured over the last round
+		// (the first round's warm-up sweeps cost the same).
+		perSweep := res.Elapsed.Seconds() / float64(max(j.opt.Warmup+res.Options.Draws, 1))
 		for {
-			ok, _ := report.Converged(res)
-			rl.Converged = ok
-			if ok || res.Options.Draws >= j.maxDraws || res.Incomplete {
-				break
-			}
-			if ctx.Err() != nil {
+			c := report.CheckConvergence(res)
+			rl.Converged = c.OK
+			switch {
+			case res.Incomplete:
+				rl.StoppedBy = report.StopInterrupted
+			case c.OK:
+				rl.StoppedBy = report.StopConverged
+			case ctx.Err() != nil:
 				// Stopped between rounds: the run has not reached its end.
 				res.Incomplete = true
+				rl.StoppedBy = report.StopInterrupted
+			case res.Options.Draws >= j.maxDraws:
+				rl.StoppedBy = report.StopDrawCap
+			}
+			if rl.StoppedBy != "" {
 				break
 			}
+			next := report.NextDraws(c, res.Options.Draws, j.maxDraws)
+			if j.timeLimit > 0 {
+				left := j.timeLimit.Seconds() - j.priorWall - res.Elapsed.Seconds()
+				if fits := int(left / perSweep); res.Options.Draws+fits < next {
+					next = res.Options.Draws + fits
+				}
+				// A round too short to change the verdict is not started.
+				if next-res.Options.Draws < max(res.Options.Draws/10, 1) {
+					rl.StoppedBy = report.StopTimeLimit
+					break
+				}
+			}
 			j.rounds++
-			j.opt.Draws = res.Options.Draws + min(res.Options.Draws, j.maxDraws-res.Options.Draws)
+			before, drawsBefore := res.Elapsed, res.Options.Draws
+			j.opt.Draws = next
 			if j.dir != "" {
 				// A run stopped without warning in this round resumes into it.
 				rec := j.record(nil)
@@ -274,6 +314,9 @@ func (j *job) finish(ctx context.Context, runner *sampler.Runner) (*Outcome, err
 			}
 			if err := runner.Extend(ctx, j.opt.Draws-res.Options.Draws); err != nil {
 				return nil, j.failed(err)
+			}
+			if done := res.Options.Draws - drawsBefore; done > 0 {
+				perSweep = (res.Elapsed - before).Seconds() / float64(done)
 			}
 		}
 		rl.Rounds = j.rounds

@@ -165,7 +165,7 @@ means: {over_time: %s}
 // goldenRun fits one combination and returns its golden text.
 func goldenRun(t *testing.T, name, yaml string, csv []byte) []byte {
 	dir := t.TempDir()
-	out, err := Fit(context.Background(), Options{ModelPath: "model.yaml", ModelRaw: []byte(yaml), DataRaw: csv,
+	out, err := Fit(context.Background(), Options{FixedLength: true, ModelPath: "model.yaml", ModelRaw: []byte(yaml), DataRaw: csv,
 		OutDir: dir, Chains: 2, Warmup: 30, Draws: 20, Seed: 7, SeedSet: true})
 	if err != nil {
 		t.Fatalf("%s: %v", name, err)

@@ -45,7 +45,7 @@ func TestSparseFirstOccasionAnchor(t *testing.T) {
 		if anchor != "" {
 			m += "means: {anchor: " + anchor + "}\n"
 		}
-		out, err := Fit(context.Background(), Options{ModelPath: "m.yaml", ModelRaw: []byte(m), DataRaw: data,
+		out, err := Fit(context.Background(), Options{FixedLength: true, ModelPath: "m.yaml", ModelRaw: []byte(m), DataRaw: data,
 			Chains: 2, Warmup: 200, Draws: 100, Seed: 5, SeedSet: true})
 		if err != nil {
 			t.Fatal(err)
@@ -114,7 +114,7 @@ func TestAnchorAndSpacingRefusals(t *testing.T) {
 			if c.name == "free paths over an unsurveyed year" {
 				m = strings.Replace(m, "dynamics: {lags: cross}", "dynamics: {lags: cross, over_time: free}", 1)
 			}
-			_, err := Fit(context.Background(), Options{ModelPath: "m.yaml", ModelRaw: []byte(m), DataRaw: c.data, Chains: 1, Draws: 5, Warmup: 5})
+			_, err := Fit(context.Background(), Options{FixedLength: true, ModelPath: "m.yaml", ModelRaw: []byte(m), DataRaw: c.data, Chains: 1, Draws: 5, Warmup: 5})
 			if err == nil || !strings.Contains(err.Error(), c.want) {
 				t.Errorf("err = %v, want %q", err, c.want)
 			}
@@ -145,7 +145,7 @@ func TestREADMEModelOnSparseFirstDay(t *testing.T) {
 			r[2], r[3] = "NA", "NA"
 		}
 	}
-	out, err := Fit(context.Background(), Options{ModelPath: "diary.yaml", ModelRaw: []byte(raw[b:e]), DataRaw: toCSV(recs)})
+	out, err := Fit(context.Background(), Options{FixedLength: true, ModelPath: "diary.yaml", ModelRaw: []byte(raw[b:e]), DataRaw: toCSV(recs)})
 	if err != nil {
 		t.Fatal(err)
 	}

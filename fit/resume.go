@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"strings"
+	"time"
 
 	"github.com/lagstar/lagstar/model"
 	"github.com/lagstar/lagstar/runfolder"
@@ -50,7 +51,8 @@ func Resume(ctx context.Context, o ResumeOptions) (*Outcome, error) {
 	}
 	opt.Progress = o.Progress
 	j := &job{l: l, opt: opt, dir: dir, level: rec.Level, started: rec.Started, priorWall: float64(rec.WallSeconds),
-		untilConverged: rec.UntilConverged, maxDraws: rec.MaxDraws, rounds: max(rec.Rounds, 1)}
+		untilConverged: rec.UntilConverged, maxDraws: rec.MaxDraws, rounds: max(rec.Rounds, 1),
+		timeLimit: time.Duration(rec.TimeLimitSeconds * float64(time.Second))}
 	cps, err := runfolder.ReadCheckpoints(dir, opt.Chains)
 	if err != nil {
 		return nil, err

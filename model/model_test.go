@@ -6,6 +6,7 @@ import (
 	"slices"
 	"strings"
 	"testing"
+	"time"
 )
 
 const spec2 = `data: {csv: d.csv, person: who, occasion: wave}
@@ -472,5 +473,25 @@ func TestWideDidYouMean(t *testing.T) {
 	_, err := ParsePanel(sp, "w.csv", []byte("id,moood_1,moood_2,sick_1,sick_2\na,1,2,0,1\nb,3,1,1,0\n"))
 	if err == nil || !strings.Contains(err.Error(), `no column for outcome "mood"`) || !strings.Contains(err.Error(), `did you mean "moood"`) {
 		t.Errorf("err = %v, want a suggestion of \"moood\"", err)
+	}
+}
+
+// TestSamplerRunLengthKeys: sampling until converged is the default;
+// until_converged: false turns it off; time_limit reads a duration and
+// refuses anything else naming the key.
+func TestSamplerRunLengthKeys(t *testing.T) {
+	base := "data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: y, type: binary}]\n"
+	sp, err := ParseSpec("m.yaml", []byte(base))
+	if err != nil || !sp.Sampler.UntilConverged || sp.Sampler.TimeLimit != 0 {
+		t.Fatalf("defaults: %+v, %v; want until converged, no time limit", sp.Sampler, err)
+	}
+	sp, err = ParseSpec("m.yaml", []byte(base+"sampler: {until_converged: false, time_limit: 90m}\n"))
+	if err != nil || sp.Sampler.UntilConverged || sp.Sampler.TimeLimit != 90*time.Minute {
+		t.Fatalf("set: %+v, %v", sp.Sampler, err)
+	}
+	for _, bad := range []string{"soon", "-5m", "0s", "[1]"} {
+		if _, err := ParseSpec("m.yaml", []byte(base+"sampler: {time_limit: "+bad+"}\n")); err == nil || !strings.Contains(err.Error(), "sampler.time_limit") {
+			t.Errorf("time_limit %s: %v, want an error naming sampler.time_limit", bad, err)
+		}
 	}
 }

@@ -7,6 +7,7 @@ import (
 	"slices"
 	"strconv"
 	"strings"
+	"time"
 
 	"go.yaml.in/yaml/v3"
 )
@@ -139,10 +140,13 @@ type SamplerSpec struct {
 	Seed                  uint64
 	SeedSet               bool
 	ThresholdUpdate       ThresholdUpdate
-	// UntilConverged extends sampling in rounds until every parameter has
-	// R-hat <= 1.01 and bulk- and tail-ESS >= 400, up to MaxDraws per chain.
+	// UntilConverged (the default) extends sampling in rounds until every
+	// parameter has R-hat <= 1.01 and bulk- and tail-ESS >= 400, up to
+	// MaxDraws per chain and, when TimeLimit > 0, about TimeLimit of
+	// sampling; false keeps Draws per chain whatever the diagnostics say.
 	UntilConverged bool
 	MaxDraws       int
+	TimeLimit      time.Duration
 	// PathMoves adds exact-HMC moves of whole latent paths (all outcomes
 	// categorical only).
 	PathMoves bool
@@ -159,7 +163,7 @@ var schema = map[string][]string{
 	"person_differences": {"random_intercepts"},
 	"dynamics":           {"lags", "residual_correlation", "over_time", "first_occasion"},
 	"means":              {"over_time", "anchor"},
-	"sampler":            {"chains", "warmup", "draws", "seed", "threshold_update", "until_converged", "max_draws", "path_moves", "checkpoint_every"},
+	"sampler":            {"chains", "warmup", "draws", "seed", "threshold_update", "until_converged", "max_draws", "time_limit", "path_moves", "checkpoint_every"},
 }
 
 // looksLikeCSV reports whether a would-be model file is a CSV: its first
@@ -230,7 +234,7 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 	sp.Within.Lags = LagsCross
 	sp.Means.Free = true
 	sp.Means.Anchor = AnchorAuto
-	sp.Sampler = SamplerSpec{Chains: 4, Warmup: 1000, Draws: 1000, ThresholdUpdate: ThresholdJoint, MaxDraws: 20000, CheckpointEvery: 500}
+	sp.Sampler = SamplerSpec{Chains: 4, Warmup: 1000, Draws: 1000, ThresholdUpdate: ThresholdJoint, UntilConverged: true, MaxDraws: 20000, CheckpointEvery: 500}
 	r := &reader{file: path, p: p, schema: schema}
 	top := r.mapping(root, "")
 	if top == nil {
@@ -362,6 +366,13 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 		}
 		if v, ok := m["max_draws"]; ok {
 			sp.Sampler.MaxDraws = r.intIn(v, "sampler.max_draws", 1, 10_000_000)
+		}
+		if v, ok := m["time_limit"]; ok {
+			d, err := time.ParseDuration(v.Value)
+			if err != nil || v.Kind != yaml.ScalarNode || d <= 0 {
+				p.addf(path, v.Line, "sampler.time_limit: expected a duration such as 30m, 2h or 90s, got %q", v.Value)
+			}
+			sp.Sampler.TimeLimit = d
 		}
 		if v, ok := m["threshold_update"]; ok {
 			sp.Sampler.ThresholdUpdate = ThresholdUpdate(r.choice(v, "sampler.threshold_update", "joint", "albert-chib"))

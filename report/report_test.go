@@ -360,3 +360,24 @@ func TestPlurals(t *testing.T) {
 		t.Errorf("header %q, want singular counts", first)
 	}
 }
+
+// TestNextDraws: the next round's draws follow the slowest ESS (with a
+// 20% margin), between 1.25 and 4 times the current draws, within the cap.
+func TestNextDraws(t *testing.T) {
+	for _, c := range []struct {
+		c          Convergence
+		draws, cap int
+		want       int
+	}{
+		{Convergence{MinESS: 200}, 1000, 20000, 2400}, // 1000 * 1.2 * 400/200
+		{Convergence{MinESS: 20}, 1000, 20000, 4000},  // at most 4x
+		{Convergence{MinESS: 390}, 1000, 20000, 1250}, // at least 1.25x
+		{Convergence{MinESS: 500}, 1000, 20000, 1500}, // only R-hat fails
+		{Convergence{MinESS: math.NaN()}, 1000, 20000, 2000},
+		{Convergence{MinESS: 100}, 1000, 3000, 3000}, // the cap
+	} {
+		if got := NextDraws(c.c, c.draws, c.cap); got != c.want {
+			t.Errorf("NextDraws(min ESS %g, %d draws, cap %d) = %d, want %d", c.c.MinESS, c.draws, c.cap, got, c.want)
+		}
+	}
+}

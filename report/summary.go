@@ -126,19 +126,83 @@ type RunLength struct {
 	DrawsPerChain int  `json:"draws_per_chain"`
 	MaxDraws      int  `json:"max_draws"`
 	Converged     bool `json:"converged"`
+	// StoppedBy says why sampling stopped: StopConverged, StopDrawCap,
+	// StopTimeLimit or StopInterrupted.
+	StoppedBy string `json:"stopped_by"`
+	// TimeLimitSeconds is the time limit asked for (omitted when none).
+	TimeLimitSeconds float64 `json:"time_limit_seconds,omitempty"`
 }
 
-// Converged reports whether every parameter of res has R-hat <= RhatLimit
-// and bulk- and tail-ESS >= ESSLimit, and names the worst one otherwise.
-func Converged(res *sampler.Result) (bool, string) {
+// Reasons a run until converged stopped (RunLength.StoppedBy).
+const (
+	StopConverged   = "converged"
+	StopDrawCap     = "draw cap"
+	StopTimeLimit   = "time limit"
+	StopInterrupted = "interrupted"
+)
+
+// Convergence is the convergence rule applied to a result: to every
+// parameter and every tabled derived quantity, the set summary.json's
+// converged judges.
+type Convergence struct {
+	OK bool
+	// Worst names the first failing quantity with its diagnostics.
+	Worst string
+	// MinESS is the smallest bulk- or tail-ESS (NaN when one is
+	// undefined); RhatFails says whether some R-hat fails.
+	MinESS    float64
+	RhatFails bool
+}
+
+// CheckConvergence applies the convergence rule to res.
+func CheckConvergence(res *sampler.Result) Convergence {
 	es := entries(res.Params, res.Draws, res.Kept, 0.95)
+	es = append(es, tableOnly(entries(res.Derived, res.DerivedDraws, res.Kept, 0.95))...)
+	c := Convergence{OK: true, MinESS: math.Inf(1)}
 	for _, e := range es {
 		r, b, t := float64(e.Rhat), float64(e.ESSBulk), float64(e.ESSTail)
-		if entryBad(e) {
-			return false, fmt.Sprintf("%s (R-hat %s, bulk-ESS %s, tail-ESS %s)", e.Name, diag(r, 3), diag(b, 0), diag(t, 0))
+		if math.IsNaN(b) || math.IsNaN(t) {
+			c.MinESS = math.NaN()
+		} else if !math.IsNaN(c.MinESS) {
+			c.MinESS = min(c.MinESS, b, t)
+		}
+		if rhatBad(r) {
+			c.RhatFails = true
+		}
+		if entryBad(e) && c.OK {
+			c.OK = false
+			c.Worst = fmt.Sprintf("%s (R-hat %s, bulk-ESS %s, tail-ESS %s)", e.Name, diag(r, 3), diag(b, 0), diag(t, 0))
 		}
 	}
-	return true, ""
+	return c
+}
+
+// Converged reports whether every parameter and tabled derived quantity of
+// res has R-hat <= RhatLimit and bulk- and tail-ESS >= ESSLimit, and names
+// the first one that does not otherwise.
+func Converged(res *sampler.Result) (bool, string) {
+	c := CheckConvergence(res)
+	return c.OK, c.Worst
+}
+
+// NextDraws sizes the next round of a run until converged: the draws per
+// chain at which the slowest quantity's ESS, growing in proportion to the
+// draws as it does once the chains mix, reaches ESSLimit with a 20% margin;
+// at least 1.25 and at most 4 times the current draws (ESS estimates from
+// few draws are rough), 1.5 times when only R-hat fails, twice when an ESS
+// is undefined; never more than maxDraws.
+func NextDraws(c Convergence, draws, maxDraws int) int {
+	var f float64
+	switch {
+	case math.IsNaN(c.MinESS) || c.MinESS <= 0:
+		f = 2
+	case c.MinESS >= ESSLimit:
+		f = 1.5 // only R-hat fails
+	default:
+		f = 1.2 * ESSLimit / c.MinESS
+	}
+	f = min(max(f, 1.25), 4)
+	return min(int(math.Ceil(f*float64(draws))), maxDraws)
 }
 
 // rhatBad and essBad fail a diagnostic that is past its limit or

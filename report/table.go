@@ -6,6 +6,7 @@ import (
 	"io"
 	"math"
 	"strings"
+	"time"
 )
 
 // Caution is printed under every table and in the README.
@@ -39,7 +40,13 @@ func WriteTable(w io.Writer, s *Summary) error {
 	}
 	if rl := s.RunLength; rl != nil {
 		verdict := "converged"
-		if !rl.Converged {
+		switch {
+		case rl.Converged:
+		case rl.StoppedBy == StopTimeLimit:
+			verdict = fmt.Sprintf("NOT converged: stopped at the time limit (%s)", time.Duration(rl.TimeLimitSeconds*float64(time.Second)).String())
+		case rl.StoppedBy == StopInterrupted:
+			verdict = "NOT converged: interrupted"
+		default:
 			verdict = "NOT converged at the cap"
 		}
 		fmt.Fprintf(&b, "run until converged: %d %s, %d draws per chain (cap %d), %s\n", rl.Rounds, pick(rl.Rounds == 1, "round", "rounds"), rl.DrawsPerChain, rl.MaxDraws, verdict)

@@ -29,6 +29,8 @@ type Record struct {
 	UntilConverged  bool    `json:"until_converged,omitempty"`
 	MaxDraws        int     `json:"max_draws,omitempty"`
 	Rounds          int     `json:"rounds,omitempty"`
+	// TimeLimitSeconds is the run-until-converged time limit (0: none).
+	TimeLimitSeconds float64 `json:"time_limit_seconds,omitempty"`
 	// Status is "running" while a fit runs (a folder left so was stopped
 	// without warning: resume it), "interrupted" when it was stopped and
 	// wrote what it had, "complete" when it finished, "failed" when the

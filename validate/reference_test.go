@@ -67,7 +67,7 @@ means: {over_time: equal}
 			if err != nil {
 				t.Fatal(err)
 			}
-			out, err := fit.Fit(context.Background(), fit.Options{ModelPath: "testdata/" + c.name + ".yaml", ModelRaw: []byte(c.model), DataRaw: data,
+			out, err := fit.Fit(context.Background(), fit.Options{FixedLength: true, ModelPath: "testdata/" + c.name + ".yaml", ModelRaw: []byte(c.model), DataRaw: data,
 				Chains: 4, Warmup: 1500, Draws: 20000, Seed: 2026, SeedSet: true})
 			if err != nil {
 				t.Fatal(err)

@@ -23,7 +23,9 @@ type fitOptions struct {
 	format                string
 	quiet                 bool
 	untilConverged        bool
+	fixedLength           bool
 	maxDraws              int
+	timeLimit             time.Duration
 	checkpointEvery       int
 	overwrite             bool
 	data                  string
@@ -94,8 +96,10 @@ func (o *fitOptions) bind(cmd *cobra.Command) {
 	f.Float64Var(&o.level, "level", 0.95, "level of the central posterior intervals")
 	f.StringVar(&o.format, "format", "text", "what to print: text (table) or json (summary)")
 	f.BoolVar(&o.quiet, "quiet", false, "print no progress")
-	f.BoolVar(&o.untilConverged, "until-converged", false, "extend sampling in rounds until R-hat <= 1.01 and bulk/tail ESS >= 400 for every parameter")
-	f.IntVar(&o.maxDraws, "max-draws", 0, "cap on draws per chain for --until-converged (default from the model file, else 20000)")
+	f.BoolVar(&o.untilConverged, "until-converged", false, "sample until R-hat <= 1.01 and bulk/tail ESS >= 400 for every reported quantity (the default; this overrides until_converged: false in the model file)")
+	f.BoolVar(&o.fixedLength, "fixed-length", false, "keep exactly --draws draws per chain (no extension rounds), whatever the diagnostics say")
+	f.IntVar(&o.maxDraws, "max-draws", 0, "cap on draws per chain when sampling until converged (default from the model file, else 20000)")
+	f.DurationVar(&o.timeLimit, "time-limit", 0, "when sampling until converged, start no round that would take sampling past this time (e.g. 10m, 2h; default from the model file, else none)")
 	f.BoolVar(&o.overwrite, "overwrite", false, "replace the lagstar run already in the --out folder (its files and figures are removed first)")
 }
 
@@ -103,7 +107,7 @@ func (o *fitOptions) bind(cmd *cobra.Command) {
 func (o *fitOptions) fitOptions(cmd *cobra.Command) fit.Options {
 	f := cmd.Flags()
 	return fit.Options{Chains: o.chains, Warmup: o.warmup, WarmupSet: f.Changed("warmup"), Draws: o.draws, Seed: o.seed, SeedSet: f.Changed("seed"), Level: o.level,
-		UntilConverged: o.untilConverged, MaxDraws: o.maxDraws,
+		UntilConverged: o.untilConverged, FixedLength: o.fixedLength, MaxDraws: o.maxDraws, TimeLimit: o.timeLimit,
 		CheckpointEvery: o.checkpointEvery, CheckpointSet: f.Changed("checkpoint-every"), Overwrite: o.overwrite}
 }
 
@@ -123,6 +127,10 @@ func (o *fitOptions) validate(cmd *cobra.Command) error {
 		return &usageError{fmt.Errorf("--level: expected a number between 0 and 1, got %g", o.level)}
 	case o.checkpointEvery < 0:
 		return &usageError{fmt.Errorf("--checkpoint-every: expected a whole number >= 0, got %d", o.checkpointEvery)}
+	case o.untilConverged && o.fixedLength:
+		return &usageError{fmt.Errorf("--until-converged and --fixed-length contradict each other; give one")}
+	case set("time-limit") && o.timeLimit <= 0:
+		return &usageError{fmt.Errorf("--time-limit: expected a positive duration such as 10m or 2h, got %s", o.timeLimit)}
 	case set("max-draws") && o.maxDraws < 1:
 		return &usageError{fmt.Errorf("--max-draws: expected a whole number >= 1, got %d", o.maxDraws)}
 	case o.format != "text" && o.format != "json":

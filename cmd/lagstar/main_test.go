@@ -32,6 +32,7 @@ sampler:
   warmup: 20
   draws: 20
   seed: 5
+  until_converged: false
 `
 
 func goodData() string {
@@ -146,7 +147,7 @@ func TestBadInput(t *testing.T) {
 		{"misspelled key", strings.Replace(goodModel, "lags: cross", "lag: cross", 1), data, nil,
 			[]string{"model.yaml:13:", `unknown key in dynamics: "lag"`, `did you mean "lags"`}},
 		{"unknown top-level key", goodModel + "priorz: {}\n", data, nil,
-			[]string{"model.yaml:21:", `"priorz"`}},
+			[]string{"model.yaml:22:", `"priorz"`}},
 		{"data file missing", strings.Replace(goodModel, "data.csv", "nothere.csv", 1), data, nil,
 			[]string{"model.yaml", "nothere.csv does not exist"}},
 		{"model file missing", "", data, []string{"fit", "nomodel.yaml"},
@@ -536,5 +537,53 @@ func TestUnconvergedNeverHides(t *testing.T) {
 	code, stdout, stderr = runCLI("compare", out, out, "--draws", "10", "--ghk-points", "20")
 	if code != 0 || !strings.Contains(stdout, "model short is NOT CONVERGED") || !strings.Contains(stderr, "NOT CONVERGED") {
 		t.Errorf("compare: exit %d; output and stderr should say NOT CONVERGED:\n%s\n%s", code, stdout, stderr)
+	}
+}
+
+// TestRunLengthFlags: a default fit samples until converged (here up to
+// the --max-draws cap, in rounds sized from the ESS so far) and says where
+// it stopped; --fixed-length keeps the first round; contradictory or bad
+// run-length flags exit 2 naming the flag.
+func TestRunLengthFlags(t *testing.T) {
+	model := strings.Replace(goodModel, "  until_converged: false\n", "", 1)
+	dir, mp := setup(t, model, goodData())
+	code, stdout, stderr := runCLI("fit", mp, "--out", filepath.Join(dir, "a"), "--quiet", "--format", "json", "--max-draws", "45")
+	if code != 0 {
+		t.Fatalf("default fit: exit %d: %s", code, stderr)
+	}
+	var s struct {
+		RunLength *struct {
+			Rounds        int    `json:"rounds"`
+			DrawsPerChain int    `json:"draws_per_chain"`
+			StoppedBy     string `json:"stopped_by"`
+			Converged     bool   `json:"converged"`
+		} `json:"run_length"`
+	}
+	if err := json.Unmarshal([]byte(stdout), &s); err != nil {
+		t.Fatal(err)
+	}
+	if rl := s.RunLength; rl == nil || rl.Converged || rl.StoppedBy != "draw cap" || rl.DrawsPerChain != 45 || rl.Rounds < 2 {
+		t.Errorf("default fit of a short run: run_length %+v, want extended to the cap of 45 and stopped there", rl)
+	}
+	code, stdout, stderr = runCLI("fit", mp, "--out", filepath.Join(dir, "b"), "--quiet", "--format", "json", "--fixed-length")
+	if code != 0 {
+		t.Fatalf("--fixed-length: exit %d: %s", code, stderr)
+	}
+	s.RunLength = nil
+	if err := json.Unmarshal([]byte(stdout), &s); err != nil || s.RunLength != nil {
+		t.Errorf("--fixed-length: run_length %+v (%v), want none", s.RunLength, err)
+	}
+	for _, c := range []struct {
+		args []string
+		want string
+	}{
+		{[]string{"--fixed-length", "--until-converged"}, "contradict"},
+		{[]string{"--time-limit", "-5m"}, "--time-limit"},
+		{[]string{"--time-limit", "soon"}, "time-limit"},
+	} {
+		code, _, stderr := runCLI(append([]string{"fit", mp, "--out", filepath.Join(dir, "c"), "--quiet"}, c.args...)...)
+		if code != 2 || !strings.Contains(stderr, c.want) {
+			t.Errorf("fit %v: exit %d, stderr %q; want 2 naming %s", c.args, code, stderr, c.want)
+		}
 	}
 }
