@@ -285,3 +285,46 @@ func median(xs []float64) float64 {
 	slices.Sort(s)
 	return (s[(len(s)-1)/2] + s[len(s)/2]) / 2
 }
+
+// TestPerfInterweave measures the interweaving move of the random-intercept
+// scales (InterweaveBlock): minimum bulk-ESS per second (means left out,
+// as in TestPerfESS) and the slowest parameter, with and without it, on
+// problems D and P and the two-binary panel of 1,200 persons x 5 waves,
+// three seeds each. Run with LAGSTAR_PERF=1.
+func TestPerfInterweave(t *testing.T) {
+	if os.Getenv("LAGSTAR_PERF") == "" {
+		t.Skip("set LAGSTAR_PERF=1")
+	}
+	ps := problems()[:2]
+	ps = append(ps, problem{name: "B (1200 x 5, two binary)", n: 1200, t: 5, yaml: `data: {csv: x.csv, person: person, occasion: occasion}
+outcomes: [{name: a, type: binary}, {name: b, type: binary}]
+dynamics: {lags: cross}
+means: {over_time: free}
+`, tr: Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Binary, model.Binary}, Tau: [][]float64{{0.4}, {0.7}},
+		Psi: []float64{0.8, 0.28, 0.28, 0.6}, A: []float64{0.3, 0, 0.15, 0.25}, Sigma: []float64{1, 0.3, 0.3, 1}, Sigma1: []float64{1, 0.3, 0.3, 1}, Missing: 0.05}})
+	for _, p := range ps {
+		l := p.layout(t)
+		for _, iw := range []bool{false, true} {
+			var rates []float64
+			args := ""
+			for seed := uint64(1); seed <= 3; seed++ {
+				var tweak func([]Block)
+				if !iw {
+					tweak = func(bs []Block) {
+						for k, b := range bs {
+							if _, ok := b.(*InterweaveBlock); ok {
+								bs[k] = skipBlock{}
+							}
+						}
+					}
+				}
+				res, err := runOpts(context.Background(), l, Options{Chains: 2, Warmup: 1000, Draws: 3000, Seed: seed, ThresholdUpdate: model.ThresholdJoint}, tweak)
+				r, arg, _ := essSummary(t, res, err, 2, 3000)
+				rates = append(rates, r)
+				args += " " + arg
+			}
+			slices.Sort(rates)
+			t.Logf("%s, interweave %v: min bulk-ESS/s median %.1f (%.1f..%.1f); slowest:%s", p.name, iw, rates[1], rates[0], rates[2], args)
+		}
+	}
+}

@@ -46,4 +46,5 @@ const (
 	slotPaths       = 100
 	slotCov         = 110
 	slotPsi         = 120
+	slotInterweave  = 125 // InterweaveBlock
 )

@@ -56,6 +56,10 @@ func Blocks(l *Layout, update model.ThresholdUpdate) []Block {
 	return blocksFor(l, Options{ThresholdUpdate: update})
 }
 
+// BlocksFor returns the Gibbs blocks a run with options opt sweeps, in
+// sweep order (the Geweke test uses it).
+func BlocksFor(l *Layout, opt Options) []Block { return blocksFor(l, opt) }
+
 // blocksFor returns the blocks for the options of a run: every active
 // term's, in sweep-slot order (registry.go).
 func blocksFor(l *Layout, opt Options) []Block { return termBlocks(l, opt) }

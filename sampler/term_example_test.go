@@ -57,7 +57,7 @@ func (offsetTerm) Start(s *State, rng *rand.Rand) {
 }
 
 func (offsetTerm) Blocks(l *Layout, _ Options) []Placed {
-	return []Placed{{slotPsi + 5, &offsetBlock{}}}
+	return []Placed{{slotInterweave + 5, &offsetBlock{}}}
 }
 
 // offsetBlock draws the offsets from their full conditional, the prior;

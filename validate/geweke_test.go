@@ -27,21 +27,29 @@ func redrawData(st *sampler.State, rng *rand.Rand, y []float64) {
 // Bonferroni over all test functions at family-wise level 0.01.
 //
 // Two cases: means equal over time, and means free over time (which adds
-// the level moves of thresholds against free means).
+// the level moves of thresholds against free means). Both include the
+// interweaving move of the random-intercept scales (two outcomes); the
+// test fails when that move's prior exponent or its linear term is off.
 func TestGewekeJointDistribution(t *testing.T) {
 	if testing.Short() {
 		t.Skip("Geweke test skipped in -short mode")
 	}
 	const pair = `[{name: mood, type: ordinal, categories: 3, lowest: 0}, {name: ache, type: binary}]`
-	for _, c := range []struct{ name, means string }{{"means equal", eqM}, {"means free", "over_time: free"}} {
+	for _, c := range []struct {
+		name, means string
+		opt         sampler.Options
+	}{
+		{"means equal", eqM, sampler.Options{ThresholdUpdate: model.ThresholdJoint}},
+		{"means free", "over_time: free", sampler.Options{ThresholdUpdate: model.ThresholdJoint}},
+	} {
 		t.Run(c.name, func(t *testing.T) {
 			t.Parallel()
-			geweke(t, Scenario{Name: "geweke", Model: base(pair, ri, cross, c.means), Persons: 8, Times: 4})
+			geweke(t, Scenario{Name: "geweke", Model: base(pair, ri, cross, c.means), Persons: 8, Times: 4}, c.opt)
 		})
 	}
 }
 
-func geweke(t *testing.T, sc Scenario) {
+func geweke(t *testing.T, sc Scenario, opt sampler.Options) {
 	pr := SBCPriors()
 	l, err := templateLayout(sc, pr)
 	if err != nil {
@@ -74,7 +82,7 @@ func geweke(t *testing.T, sc Scenario) {
 	// Successive-conditional.
 	const L, batches, burn = 400000, 40, 2000
 	st := DrawPrior(l, pr, rng)
-	blocks := sampler.Blocks(l, model.ThresholdJoint)
+	blocks := sampler.BlocksFor(l, opt)
 	y := make([]float64, len(st.Y))
 	batchSum := make([][]float64, batches)
 	for b := range batchSum {
