@@ -345,18 +345,20 @@ func TestRunFolderLock(t *testing.T) {
 	dir := t.TempDir()
 	m, d := examples.SleepDiary()
 	o := Options{FixedLength: true, ModelPath: "m.yaml", ModelRaw: m, DataRaw: d, OutDir: dir, Chains: 1, Warmup: 5, Draws: 5, Seed: 1, SeedSet: true}
-	// Held by a running process: this test's parent (the go command).
+	// Held by another fit (its operating-system lock).
 	lock := filepath.Join(dir, runfolder.LockFile)
-	if err := os.WriteFile(lock, []byte(strconv.Itoa(os.Getppid())+"\n"), 0o644); err != nil {
+	release, err := runfolder.Lock(dir)
+	if err != nil {
 		t.Fatal(err)
 	}
 	if _, err := Fit(context.Background(), o); err == nil || !strings.Contains(err.Error(), "in use by another lagstar fit") {
 		t.Fatalf("fit into a locked folder: got %v", err)
 	}
+	release()
 	if _, err := os.Stat(filepath.Join(dir, "run.json")); err == nil {
 		t.Error("a refused fit wrote run.json")
 	}
-	// Left by a process that is gone.
+	// A lock file left by a process that is gone holds no lock.
 	done := exec.Command("true")
 	if err := done.Run(); err != nil {
 		t.Skip("no true command")

@@ -713,6 +713,9 @@ func (pan *Panel) arrange(sp *Spec, file string, rows []cellRow) error {
 		persons = append(persons, id)
 	}
 	sortPersons(persons)
+	if same := sameNumberIDs(persons); len(same) > 0 {
+		pan.Notes = append(pan.Notes, fmt.Sprintf("person ids %s are the same number written differently and are taken as different persons; if they are one person, write the id one way", clip(same, 5)))
+	}
 	p := &problems{}
 	var dropped []string
 	for _, id := range persons {
@@ -934,14 +937,42 @@ func sortPersons(ids []string) {
 		}
 	}
 	if numeric {
+		// Ids that are the same number written differently (1 and 01, 4
+		// and +4) are different persons; the text breaks the tie, so the
+		// order is total and the draws do not depend on the map order.
 		slices.SortFunc(ids, func(a, b string) int {
 			x, _ := strconv.ParseInt(a, 10, 64)
 			y, _ := strconv.ParseInt(b, 10, 64)
-			return cmp.Compare(x, y)
+			if c := cmp.Compare(x, y); c != 0 {
+				return c
+			}
+			return strings.Compare(a, b)
 		})
 		return
 	}
 	slices.Sort(ids)
+}
+
+// sameNumberIDs returns the groups of person ids (sorted by sortPersons)
+// that are one number written differently, e.g. "1, 01".
+func sameNumberIDs(ids []string) []string {
+	var out []string
+	for k := 0; k < len(ids); {
+		x, err := strconv.ParseInt(ids[k], 10, 64)
+		e := k + 1
+		for err == nil && e < len(ids) {
+			y, err2 := strconv.ParseInt(ids[e], 10, 64)
+			if err2 != nil || y != x {
+				break
+			}
+			e++
+		}
+		if e-k > 1 {
+			out = append(out, strings.Join(ids[k:e], " and "))
+		}
+		k = e
+	}
+	return out
 }
 
 func clip(xs []string, n int) string {

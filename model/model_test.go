@@ -495,3 +495,35 @@ func TestSamplerRunLengthKeys(t *testing.T) {
 		}
 	}
 }
+
+// TestPersonOrderTotal: ids that are one number written differently (1
+// and 01, 4 and +4, 0 and -0) are different persons in one total order,
+// whatever the order of the rows, and the summary notes them.
+func TestPersonOrderTotal(t *testing.T) {
+	sp, err := ParseSpec("m.yaml", []byte("data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: y, type: binary}]\n"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	rows := []string{"01,1,0", "1,1,1", "+4,1,0", "4,1,1", "0,1,1", "-0,1,0", "01,2,1", "1,2,0", "+4,2,1", "4,2,0", "0,2,0", "-0,2,1"}
+	var orders [][]string
+	for _, rev := range []bool{false, true} {
+		rs := slices.Clone(rows)
+		if rev {
+			slices.Reverse(rs)
+		}
+		pan, err := ParsePanel(sp, "d.csv", []byte("p,t,y\n"+strings.Join(rs, "\n")+"\n"))
+		if err != nil {
+			t.Fatal(err)
+		}
+		orders = append(orders, pan.Persons)
+		if !strings.Contains(strings.Join(pan.Notes, "\n"), "the same number written differently") {
+			t.Errorf("no note on ids that are one number: %v", pan.Notes)
+		}
+	}
+	want := []string{"-0", "0", "01", "1", "+4", "4"}
+	for _, o := range orders {
+		if !slices.Equal(o, want) {
+			t.Errorf("person order %v, want %v", o, want)
+		}
+	}
+}

@@ -7,45 +7,52 @@ import (
 	"path/filepath"
 	"strconv"
 	"strings"
-	"syscall"
 
 	"github.com/lagstar/lagstar/model"
 )
 
-// Lock takes dir's lock for this process and returns its release. A
-// lock left by a process that no longer runs (killed without warning) is
-// taken over.
+// Lock takes dir's lock for this process and returns its release. The lock
+// is an exclusive operating-system lock (flock) on dir/.lagstar.lock, so
+// two processes (or two fits in one process) can never hold it at once,
+// and a process that dies, however it dies, lets it go. The file holds the
+// holder's process id, for the message a second fit gets.
 func Lock(dir string) (func(), error) {
 	path := filepath.Join(dir, LockFile)
-	for range 3 {
-		f, err := os.OpenFile(path, os.O_CREATE|os.O_EXCL|os.O_WRONLY, 0o644)
-		if err == nil {
-			fmt.Fprintf(f, "%d\n", os.Getpid())
-			if err := f.Close(); err != nil {
-				return nil, err
-			}
-			return func() { os.Remove(path) }, nil
-		}
-		if !errors.Is(err, os.ErrExist) {
+	for range 10 {
+		f, err := os.OpenFile(path, os.O_CREATE|os.O_RDWR, 0o644)
+		if err != nil {
 			return nil, fmt.Errorf("locking %s: %w", dir, err)
 		}
-		raw, _ := os.ReadFile(path)
-		pid, perr := strconv.Atoi(strings.TrimSpace(string(raw)))
-		if perr == nil && pid > 0 && pid != os.Getpid() && running(pid) {
-			return nil, model.Inputf(dir, 0, "is in use by another lagstar fit (process %d); wait for it to finish or stop it (Ctrl-C or kill %d) first", pid, pid)
+		if err := flock(f); err != nil {
+			f.Close()
+			if !errors.Is(err, errLocked) {
+				return nil, fmt.Errorf("locking %s: %w", dir, err)
+			}
+			raw, _ := os.ReadFile(path)
+			who := "another lagstar fit"
+			if pid, perr := strconv.Atoi(strings.TrimSpace(string(raw))); perr == nil && pid > 0 {
+				who = fmt.Sprintf("another lagstar fit (process %d)", pid)
+				return nil, model.Inputf(dir, 0, "is in use by %s; wait for it to finish or stop it (Ctrl-C or kill %d) first", who, pid)
+			}
+			return nil, model.Inputf(dir, 0, "is in use by %s; wait for it to finish or stop it first", who)
 		}
-		// Stale: the process that held it is gone.
-		os.Remove(path)
+		// The holder before us may have removed the file between our open
+		// and our lock: then we hold a lock on a file nobody else sees.
+		// Take the lock only on the file the path names.
+		held, err1 := f.Stat()
+		named, err2 := os.Stat(path)
+		if err1 != nil || err2 != nil || !os.SameFile(held, named) {
+			f.Close()
+			continue
+		}
+		if err := f.Truncate(0); err == nil {
+			fmt.Fprintf(f, "%d\n", os.Getpid())
+			f.Sync()
+		}
+		return func() {
+			os.Remove(path) // before the lock goes, so a waiter re-checks
+			f.Close()
+		}, nil
 	}
 	return nil, fmt.Errorf("locking %s: could not take the lock", dir)
-}
-
-// running reports whether a process with this id exists.
-func running(pid int) bool {
-	p, err := os.FindProcess(pid)
-	if err != nil {
-		return false
-	}
-	err = p.Signal(syscall.Signal(0))
-	return err == nil || errors.Is(err, syscall.EPERM)
 }

@@ -4,6 +4,9 @@ import (
 	"errors"
 	"os"
 	"path/filepath"
+	"strings"
+	"sync"
+	"sync/atomic"
 	"testing"
 	"time"
 
@@ -65,5 +68,42 @@ func TestClearLeavesOtherFiles(t *testing.T) {
 			names = append(names, e.Name())
 		}
 		t.Errorf("left %v, want only notes.txt", names)
+	}
+}
+
+// TestLockExclusive: many takers racing for one folder's lock (each a
+// separate open, as separate processes are) never hold it two at a time,
+// and every one of them gets it in the end.
+func TestLockExclusive(t *testing.T) {
+	dir := t.TempDir()
+	var holders, maxHolders, taken atomic.Int32
+	var wg sync.WaitGroup
+	for g := 0; g < 8; g++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for got := 0; got < 30; {
+				release, err := Lock(dir)
+				if err != nil {
+					if !strings.Contains(err.Error(), "in use by") {
+						t.Errorf("Lock: %v", err)
+						return
+					}
+					continue
+				}
+				if n := holders.Add(1); n > maxHolders.Load() {
+					maxHolders.Store(n)
+				}
+				time.Sleep(50 * time.Microsecond)
+				holders.Add(-1)
+				release()
+				taken.Add(1)
+				got++
+			}
+		}()
+	}
+	wg.Wait()
+	if maxHolders.Load() != 1 || taken.Load() != 240 {
+		t.Errorf("at most %d holders at once (want 1), %d locks taken (want 240)", maxHolders.Load(), taken.Load())
 	}
 }

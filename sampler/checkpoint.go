@@ -97,6 +97,11 @@ func fingerprint(l *Layout, opt Options) string {
 	for _, p := range l.Params() {
 		fmt.Fprintf(h, "%s\x00", p.Name)
 	}
+	// The person order decides which latent responses and intercepts a
+	// checkpoint's vectors belong to.
+	for _, id := range l.Panel.Persons {
+		fmt.Fprintf(h, "%s\x00", id)
+	}
 	var b [8]byte
 	binary.LittleEndian.PutUint64(b[:], opt.Seed)
 	h.Write(b[:])
