@@ -4,10 +4,12 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"os"
 	"strings"
 	"time"
 
 	"github.com/lagstar/lagstar/model"
+	"github.com/lagstar/lagstar/report"
 	"github.com/lagstar/lagstar/runfolder"
 	"github.com/lagstar/lagstar/sampler"
 )
@@ -34,6 +36,8 @@ func Resume(ctx context.Context, o ResumeOptions) (*Outcome, error) {
 	}
 	defer unlock()
 	switch {
+	case (rec.Complete || rec.Status == runfolder.StatusComplete) && missing(dir, runfolder.SummaryFile):
+		return rebuildSummary(dir)
 	case rec.Complete || rec.Status == runfolder.StatusComplete:
 		return nil, model.Inputf(dir, 0, "the run is already complete; there is nothing to resume")
 	case rec.Status == runfolder.StatusFailed:
@@ -74,4 +78,42 @@ func Resume(ctx context.Context, o ResumeOptions) (*Outcome, error) {
 		return nil, j.failed(err)
 	}
 	return j.finish(ctx, runner)
+}
+
+// missing reports whether file name of run folder dir does not exist.
+func missing(dir, name string) bool {
+	_, err := os.Stat(runfolder.Path(dir, name))
+	return errors.Is(err, os.ErrNotExist)
+}
+
+// rebuildSummary writes the summary.json of a complete run that lost it
+// (a run written by an earlier version, or a file deleted), from its
+// draws; it says so in the summary's notes.
+func rebuildSummary(dir string) (*Outcome, error) {
+	res, rec, err := runfolder.ReadResult(dir)
+	if err != nil {
+		return nil, err
+	}
+	sum := report.Build(res, rec.Level, Version)
+	if rec.UntilConverged {
+		rl := &report.RunLength{Rounds: max(rec.Rounds, 1), DrawsPerChain: rec.Draws, MaxDraws: rec.MaxDraws,
+			Converged: sum.Converged, TimeLimitSeconds: rec.TimeLimitSeconds, StoppedBy: report.StopConverged}
+		switch {
+		case sum.Converged:
+		case rec.Draws >= rec.MaxDraws:
+			rl.StoppedBy = report.StopDrawCap
+		default:
+			rl.StoppedBy = report.StopTimeLimit
+		}
+		sum.RunLength = rl
+	}
+	sum.Model.Notes = append(sum.Model.Notes, "summary.json was rebuilt from draws.csv by lagstar fit --resume (derived quantities recomputed from the parameter draws)")
+	b, err := sum.JSON()
+	if err != nil {
+		return nil, err
+	}
+	if err := runfolder.WriteFile(dir, runfolder.SummaryFile, b); err != nil {
+		return nil, fmt.Errorf("writing %s: %w", dir, err)
+	}
+	return &Outcome{Summary: sum, Result: res, Record: rec}, nil
 }

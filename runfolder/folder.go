@@ -7,7 +7,7 @@
 //	  run.json        the run record (Record), written first and on every change of status
 //	  data.csv        a copy of the data (check, compare and resume read it)
 //	  draws.csv       kept draws (report.DrawsCSV)
-//	  summary.json    the summary (report.Summary), written last
+//	  summary.json    the summary (report.Summary), written before run.json says complete
 //	  check.json, check_KIND[_n].png   posterior predictive checks (lagstar check)
 //	  report.html     the HTML report (lagstar report)
 //	  checkpoints/chain-N.ckpt          while the run is unfinished
@@ -171,9 +171,10 @@ func Begin(dir string, data []byte, rec Record) error {
 }
 
 // WriteResult writes data.csv (a copy of the data, for lagstar check),
-// draws.csv, run.json and summary.json into dir, each through a
-// temporary file and a rename, summary.json last, so that a summary.json
-// present in dir always belongs to a fully written run.
+// draws.csv, summary.json and run.json into dir, each through a temporary
+// file, fsync and a rename, run.json last: a run.json that says complete
+// always belongs to a fully written run, and a run stopped while writing
+// is still unfinished (and can be resumed).
 func WriteResult(dir string, res *sampler.Result, s *report.Summary, rec Record) error {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return fmt.Errorf("create output folder: %w", err)
@@ -194,10 +195,12 @@ func WriteResult(dir string, res *sampler.Result, s *report.Summary, rec Record)
 	if err != nil {
 		return err
 	}
+	// run.json last: its status says complete only once everything it
+	// vouches for is on disk (a kill before leaves a run to resume).
 	for _, f := range []struct {
 		name string
 		data []byte
-	}{{DataFile, res.Layout.Panel.Raw}, {DrawsFile, draws}, {RunFile, append(runJSON, '\n')}, {SummaryFile, sum}} {
+	}{{DataFile, res.Layout.Panel.Raw}, {DrawsFile, draws}, {SummaryFile, sum}, {RunFile, append(runJSON, '\n')}} {
 		if err := WriteAtomic(Path(dir, f.name), f.data); err != nil {
 			return err
 		}
@@ -280,7 +283,8 @@ func ReadSummary(dir string) (*report.Summary, error) {
 }
 
 // WriteAtomic writes data to path through a temporary file in the same
-// folder and a rename.
+// folder, fsync and a rename (then an fsync of the folder): after a crash
+// path holds the old content or the new, never a part.
 func WriteAtomic(path string, data []byte) error {
 	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".tmp*")
 	if err != nil {
@@ -291,11 +295,23 @@ func WriteAtomic(path string, data []byte) error {
 		tmp.Close()
 		return err
 	}
+	if err := tmp.Sync(); err != nil {
+		tmp.Close()
+		return err
+	}
 	if err := tmp.Close(); err != nil {
 		return err
 	}
 	if err := os.Chmod(tmp.Name(), 0o644); err != nil {
 		return err
 	}
-	return os.Rename(tmp.Name(), path)
+	if err := os.Rename(tmp.Name(), path); err != nil {
+		return err
+	}
+	// The rename itself reaches the disk with the folder's entry.
+	if d, err := os.Open(filepath.Dir(path)); err == nil {
+		d.Sync()
+		d.Close()
+	}
+	return nil
 }

@@ -6,7 +6,9 @@ import (
 	"encoding/csv"
 	"encoding/hex"
 	"encoding/json"
+	"math/rand/v2"
 	"strconv"
+	"time"
 
 	"github.com/lagstar/lagstar/model"
 	"github.com/lagstar/lagstar/priors"
@@ -159,4 +161,58 @@ func ReadDrawColumns(dir string) (*report.Draws, error) {
 		}
 	}
 	return d, nil
+}
+
+// ReadResult rebuilds a complete run's result from its folder: the
+// parameter draws of draws.csv, chain by chain, and the derived quantities
+// recomputed from them (State.Inject, State.ExtractDerived), so that a
+// summary lost after the run completed can be built again.
+func ReadResult(dir string) (*sampler.Result, Record, error) {
+	rec, l, err := Open(dir)
+	if err != nil {
+		return nil, rec, err
+	}
+	opt, err := rec.SamplerOptions(dir)
+	if err != nil {
+		return nil, rec, err
+	}
+	raw, err := Read(dir, DrawsFile)
+	if err != nil {
+		return nil, rec, err
+	}
+	file := Path(dir, DrawsFile)
+	recs, err := csv.NewReader(bytes.NewReader(raw)).ReadAll()
+	if err != nil || len(recs) < 2 || len(recs[0]) < 3 || recs[0][0] != "chain" {
+		return nil, rec, model.Inputf(file, 0, "not a draws file (columns chain, draw, then parameters)")
+	}
+	vecs, err := parseDraws(raw, l, file)
+	if err != nil {
+		return nil, rec, err
+	}
+	params, derived := l.Params(), l.DerivedParams()
+	res := &sampler.Result{Layout: l, Params: params, Derived: derived, Options: opt,
+		Draws: make([][]float64, opt.Chains), DerivedDraws: make([][]float64, opt.Chains), Kept: make([]int, opt.Chains),
+		Elapsed: time.Duration(float64(rec.WallSeconds) * float64(time.Second))}
+	st := sampler.NewState(l, rand.New(rand.NewPCG(1, 2)))
+	dw := sampler.NewDerivedWork(l)
+	var dbuf []float64
+	for r, row := range recs[1:] {
+		c, err := strconv.Atoi(row[0])
+		if err != nil || c < 1 || c > opt.Chains {
+			return nil, rec, model.Inputf(file, r+2, "chain %q: expected a chain from 1 to %d", row[0], opt.Chains)
+		}
+		if err := st.Inject(vecs[r]); err != nil {
+			return nil, rec, model.Inputf(file, r+2, "the draw is not a valid state of the model: %v", err)
+		}
+		dbuf = st.ExtractDerived(dbuf, dw)
+		res.Draws[c-1] = append(res.Draws[c-1], vecs[r]...)
+		res.DerivedDraws[c-1] = append(res.DerivedDraws[c-1], dbuf...)
+		res.Kept[c-1]++
+	}
+	for c, k := range res.Kept {
+		if k != opt.Draws {
+			return nil, rec, model.Inputf(file, 0, "chain %d has %d draws; run.json says %d", c+1, k, opt.Draws)
+		}
+	}
+	return res, rec, nil
 }

@@ -22,7 +22,12 @@ import (
 // that computed them in the first place.
 
 // checkpointFormat changes whenever the content of a checkpoint does.
-const checkpointFormat = 1
+const checkpointFormat = 2
+
+// checkpointMagic opens every checkpoint; the SHA-256 of the gob payload
+// follows it, then the payload: a checkpoint damaged on disk (one flipped
+// bit) is refused before anything in it is used.
+const checkpointMagic = "lagstar checkpoint\x00"
 
 // ErrCheckpoint marks a checkpoint that does not belong to the run it is
 // given to (other data, model, seed or settings) or cannot be read.
@@ -141,18 +146,28 @@ func (r *Runner) checkpoint(c int) ([]byte, error) {
 		}
 		cp.Blocks = append(cp.Blocks, buf.Bytes())
 	}
-	var out bytes.Buffer
-	if err := gob.NewEncoder(&out).Encode(&cp); err != nil {
+	var payload bytes.Buffer
+	if err := gob.NewEncoder(&payload).Encode(&cp); err != nil {
 		return nil, err
 	}
-	return out.Bytes(), nil
+	sum := sha256.Sum256(payload.Bytes())
+	out := make([]byte, 0, len(checkpointMagic)+len(sum)+payload.Len())
+	out = append(append(append(out, checkpointMagic...), sum[:]...), payload.Bytes()...)
+	return out, nil
 }
 
 // restore sets chain c to the state in data. It checks that data belongs
 // to this run and has the right sizes before changing anything.
 func (r *Runner) restore(c int, data []byte) (target int, err error) {
 	var cp chainCheckpoint
-	if err := gob.NewDecoder(bytes.NewReader(data)).Decode(&cp); err != nil {
+	head := len(checkpointMagic) + sha256.Size
+	if len(data) < head || string(data[:len(checkpointMagic)]) != checkpointMagic {
+		return 0, fmt.Errorf("%w: chain %d: not a lagstar checkpoint of this version", ErrCheckpoint, c+1)
+	}
+	if sum := sha256.Sum256(data[head:]); !bytes.Equal(sum[:], data[len(checkpointMagic):head]) {
+		return 0, fmt.Errorf("%w: chain %d: the file is damaged (its checksum does not match); delete it to restart that chain from the beginning, or fit anew", ErrCheckpoint, c+1)
+	}
+	if err := gob.NewDecoder(bytes.NewReader(data[head:])).Decode(&cp); err != nil {
 		return 0, fmt.Errorf("%w: chain %d: not readable (%v)", ErrCheckpoint, c+1, err)
 	}
 	bad := func(what string) (int, error) {

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"runtime"
 	"slices"
+	"strings"
 	"sync"
 	"testing"
 
@@ -163,5 +164,15 @@ func TestResumeAfterCancel(t *testing.T) {
 	}
 	if _, err := Resume(context.Background(), l, opt, [][]byte{[]byte("not a checkpoint"), nil, nil}); !errors.Is(err, ErrCheckpoint) {
 		t.Errorf("garbage checkpoint: got %v, want ErrCheckpoint", err)
+	}
+	// One flipped bit anywhere (here in the kept draws, deep in the file,
+	// and in the header's checksum) is refused as damaged.
+	for _, at := range []int{len(saved[0]) - 20, len(saved[0]) / 2, len(checkpointMagic) + 3} {
+		bad := slices.Clone(saved[0])
+		bad[at] ^= 0x10
+		_, err := Resume(context.Background(), l, opt, [][]byte{bad, saved[1], saved[2]})
+		if !errors.Is(err, ErrCheckpoint) || !strings.Contains(err.Error(), "damaged") {
+			t.Errorf("bit flipped at byte %d of %d: got %v, want a damaged-checkpoint error", at, len(bad), err)
+		}
 	}
 }
