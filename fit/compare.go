@@ -2,7 +2,9 @@ package fit
 
 import (
 	"encoding/json"
+	"fmt"
 	"path/filepath"
+	"slices"
 
 	"github.com/lagstar/lagstar/compare"
 	"github.com/lagstar/lagstar/model"
@@ -34,6 +36,7 @@ func Compare(o CompareOptions) ([]compare.ModelResult, error) {
 	}
 	var fits []compare.ModelFit
 	sha := ""
+	var first *sampler.Layout
 	for m, dir := range o.RunDirs {
 		run, err := runfolder.OpenFinished(dir)
 		if err != nil {
@@ -41,8 +44,11 @@ func Compare(o CompareOptions) ([]compare.ModelResult, error) {
 		}
 		if sha == "" {
 			sha = run.Record.DataSHA256
+			first = run.Layout
 		} else if run.Record.DataSHA256 != sha {
 			return nil, model.Inputf(dir, 0, "was fitted to other data than %s; models can be compared only on the same data", o.RunDirs[0])
+		} else if why := sameResponses(first, run.Layout); why != "" {
+			return nil, model.Inputf(dir, 0, "models fitted to other responses than %s cannot be compared: %s", o.RunDirs[0], why)
 		}
 		draws := sampler.EvenlySpaced(run.Draws, o.Draws)
 		var progress func(done, total int)
@@ -69,4 +75,28 @@ func Compare(o CompareOptions) ([]compare.ModelResult, error) {
 		}
 	}
 	return res, nil
+}
+
+// sameResponses says how two layouts' responses differ ("" when the same
+// outcomes, with the same types and categories, of the same persons at the
+// same occasions): person likelihoods of different responses are not
+// comparable, whatever the CSV they came from.
+func sameResponses(a, b *sampler.Layout) string {
+	pa, pb := a.Panel, b.Panel
+	if len(pa.Outcomes) != len(pb.Outcomes) {
+		return fmt.Sprintf("%d outcomes against %d", len(pb.Outcomes), len(pa.Outcomes))
+	}
+	for j := range pa.Outcomes {
+		x, y := pa.Outcomes[j], pb.Outcomes[j]
+		if x.Name != y.Name || x.Type != y.Type || !slices.Equal(x.Codes, y.Codes) {
+			return fmt.Sprintf("outcome %d is %s (%s) against %s (%s)", j+1, y.Name, y.Type, x.Name, x.Type)
+		}
+	}
+	if !slices.Equal(pa.Persons, pb.Persons) {
+		return fmt.Sprintf("%d persons against %d, or other persons", len(pb.Persons), len(pa.Persons))
+	}
+	if !slices.Equal(pa.Occasions, pb.Occasions) {
+		return "other occasions"
+	}
+	return ""
 }

@@ -470,3 +470,38 @@ func TestResumeRebuildsLostSummary(t *testing.T) {
 		t.Errorf("second resume: %v, want already complete", err)
 	}
 }
+
+// TestFailedOrMismatchedRunsRefused: check and compare on a failed run say
+// to fit anew (not to resume, which would refuse), and compare refuses two
+// runs of the same CSV with different outcomes.
+func TestFailedOrMismatchedRunsRefused(t *testing.T) {
+	m, d := examples.SleepDiary()
+	both, one := t.TempDir(), t.TempDir()
+	for _, c := range []struct {
+		dir   string
+		model []byte
+	}{{both, m}, {one, []byte(strings.Replace(strings.Replace(strings.Replace(string(m), "  - name: headache\n    type: binary\n    labels: [\"no\", \"yes\"]\n", "", 1), "residual_correlation: true", "residual_correlation: false", 1), "lags: cross", "lags: own", 1))}} {
+		if _, err := Fit(context.Background(), Options{FixedLength: true, ModelPath: "m.yaml", ModelRaw: c.model, DataRaw: d, OutDir: c.dir,
+			Chains: 2, Warmup: 10, Draws: 10, Seed: 1, SeedSet: true}); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if s, err := runfolder.ReadSummary(one); err != nil || len(s.Model.Outcomes) != 1 {
+		t.Fatalf("the one-outcome model was not fitted as such (%v)", err)
+	}
+	_, err := Compare(CompareOptions{RunDirs: []string{both, one}, Draws: 4, GHKPoints: 10})
+	if err == nil || !strings.Contains(err.Error(), "other responses") {
+		t.Errorf("compare of different outcomes: %v, want a refusal", err)
+	}
+	rec, _, err := runfolder.Open(both)
+	if err != nil {
+		t.Fatal(err)
+	}
+	rec.Status, rec.Complete, rec.Error = runfolder.StatusFailed, false, "sampling failed: test"
+	if err := runfolder.WriteRecord(both, rec); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := Check(CheckOptions{RunDir: both, Draws: 5}); err == nil || !strings.Contains(err.Error(), "fit the model anew") || strings.Contains(err.Error(), "--resume") {
+		t.Errorf("check of a failed run: %v, want advice to fit anew", err)
+	}
+}

@@ -533,6 +533,10 @@ func parseOccasion(s string) (int, bool) {
 	return int(f), true
 }
 
+// maxContinuous is the largest absolute value a continuous outcome may
+// take: the sum of squares of a million such values stays finite.
+const maxContinuous = 1e150
+
 // resolveOutcome fixes the category coding of outcome k and checks values.
 func resolveOutcome(sp *Spec, file string, o OutcomeSpec, rows []cellRow, k int) (Outcome, error) {
 	out := Outcome{Name: o.Name, Type: o.Type}
@@ -549,8 +553,13 @@ func resolveOutcome(sp *Spec, file string, o OutcomeSpec, rows []cellRow, k int)
 				sentinel[v]++
 			}
 			f, err := strconv.ParseFloat(v, 64)
-			if err != nil || math.IsNaN(f) || math.IsInf(f, 0) {
+			switch {
+			case err != nil || math.IsNaN(f) || math.IsInf(f, 0):
 				p.addf(file, r.line, "outcome %q%s: %q is not a finite number (continuous outcome; missing cells may be %s)%s", o.Name, r.at(k), clipCell(v), quoteList(sp.Data.Missing), missingHint(v))
+			case math.Abs(f) > maxContinuous:
+				// Standardizing squares the values: beyond this their sum
+				// of squares overflows.
+				p.addf(file, r.line, "outcome %q%s: %s is too large to analyse (at most %g in absolute value); a huge number like this is often a missing-value code of another program: add it to data.missing_codes", o.Name, r.at(k), clipCell(v), maxContinuous)
 			}
 		}
 		for _, code := range numericMissing {

@@ -527,3 +527,17 @@ func TestPersonOrderTotal(t *testing.T) {
 		}
 	}
 }
+
+// TestHugeContinuousValueRefused: a finite value too large to standardize
+// (the -1.797e308 some programs write for missing) is refused naming the
+// row and pointing at missing codes, not left to fail in the sampler.
+func TestHugeContinuousValueRefused(t *testing.T) {
+	sp, err := ParseSpec("m.yaml", []byte("data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: steps, type: continuous}]\n"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, err = ParsePanel(sp, "d.csv", []byte("p,t,steps\n1,1,3.5\n1,2,-1.797e308\n2,1,4\n2,2,5\n"))
+	if err == nil || !strings.Contains(err.Error(), "d.csv:3") || !strings.Contains(err.Error(), "missing_codes") {
+		t.Errorf("got %v, want a refusal naming d.csv:3 and data.missing_codes", err)
+	}
+}

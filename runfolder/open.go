@@ -70,8 +70,11 @@ func OpenFinished(dir string) (*Run, error) {
 	if err != nil {
 		return nil, err
 	}
-	if !rec.Complete {
-		return nil, model.Inputf(dir, 0, "the run is incomplete (interrupted); finish it with lagstar fit --resume %s", dir)
+	switch {
+	case rec.Status == StatusFailed:
+		return nil, model.Inputf(dir, 0, "the run failed (%s) and has no results; fit the model anew (resuming would fail again)", rec.Error)
+	case !rec.Complete:
+		return nil, model.Inputf(dir, 0, "the run is unfinished (%s); finish it with lagstar fit --resume %s", rec.Status, dir)
 	}
 	rawDraws, err := Read(dir, DrawsFile)
 	if err != nil {
