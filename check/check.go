@@ -41,6 +41,16 @@ type Result struct {
 	// convergence rule: replicates from such draws check a posterior that
 	// has not been found yet.
 	Unconverged []string `json:"unconverged_parameters"`
+	// Of identifies the fit the draws came from (set by whoever reads them
+	// from a run folder), so a check is never shown with another fit.
+	Of *Source `json:"of_run,omitempty"`
+}
+
+// Source identifies a fit: when it started, its data and its seed.
+type Source struct {
+	Started    string `json:"started"`
+	DataSHA256 string `json:"data_sha256"`
+	Seed       uint64 `json:"seed"`
 }
 
 // Extreme reports whether a p-value lies outside (0.05, 0.95).

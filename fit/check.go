@@ -24,6 +24,12 @@ func Check(o CheckOptions) (*check.Result, error) {
 	if o.Draws <= 0 {
 		o.Draws = 400
 	}
+	// The lock keeps a new fit from replacing the run while it is checked.
+	unlock, err := runfolder.Lock(o.RunDir)
+	if err != nil {
+		return nil, err
+	}
+	defer unlock()
 	run, err := runfolder.OpenFinished(o.RunDir)
 	if err != nil {
 		return nil, err
@@ -33,6 +39,8 @@ func Check(o CheckOptions) (*check.Result, error) {
 		return nil, err
 	}
 	res.Unconverged = append([]string{}, run.Unconverged...)
+	started, sha, seed := run.Record.ID()
+	res.Of = &check.Source{Started: started, DataSHA256: sha, Seed: seed}
 	out, err := json.MarshalIndent(res, "", "  ")
 	if err != nil {
 		return nil, err

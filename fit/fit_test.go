@@ -505,3 +505,44 @@ func TestFailedOrMismatchedRunsRefused(t *testing.T) {
 		t.Errorf("check of a failed run: %v, want advice to fit anew", err)
 	}
 }
+
+// TestCheckBelongsToItsRun: check.json records the fit it checked; a
+// check.json of another fit in the folder (as a check racing a new fit
+// would leave) is left out of the report with a warning; a check of a
+// folder a fit holds is refused.
+func TestCheckBelongsToItsRun(t *testing.T) {
+	m, d := examples.SleepDiary()
+	a, b := t.TempDir(), t.TempDir()
+	for k, dir := range []string{a, b} {
+		if _, err := Fit(context.Background(), Options{FixedLength: true, ModelPath: "m.yaml", ModelRaw: m, DataRaw: d, OutDir: dir,
+			Chains: 2, Warmup: 10, Draws: 10, Seed: uint64(k + 1), SeedSet: true}); err != nil {
+			t.Fatal(err)
+		}
+	}
+	res, err := Check(CheckOptions{RunDir: a, Draws: 5})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Of == nil || res.Of.Seed != 1 {
+		t.Fatalf("check.json does not name its run: %+v", res.Of)
+	}
+	os.WriteFile(filepath.Join(b, runfolder.CheckFile), readFile(t, filepath.Join(a, runfolder.CheckFile)), 0o644)
+	_, s, err := HTMLReport(b)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(strings.Join(s.Warnings, "\n"), "does not belong to this fit") {
+		t.Error("a check.json of another fit was not flagged")
+	}
+	if html := string(readFile(t, filepath.Join(b, runfolder.ReportFile))); strings.Contains(html, "Posterior predictive") && !strings.Contains(html, "does not belong") {
+		t.Error("the report shows another fit's checks")
+	}
+	release, err := runfolder.Lock(a)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer release()
+	if _, err := Check(CheckOptions{RunDir: a, Draws: 5}); err == nil || !strings.Contains(err.Error(), "in use") {
+		t.Errorf("check of a locked folder: %v, want a refusal", err)
+	}
+}

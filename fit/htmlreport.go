@@ -28,6 +28,17 @@ func HTMLReport(runDir string) (string, *report.Summary, error) {
 		if err := json.Unmarshal(rawCheck, &res); err != nil {
 			return "", nil, model.Inputf(runfolder.Path(runDir, runfolder.CheckFile), 0, "not valid: %v", err)
 		}
+		rec, _, err := runfolder.Open(runDir)
+		if err != nil {
+			return "", nil, err
+		}
+		started, sha, seed := rec.ID()
+		if of := res.Of; of == nil || of.Started != started || of.DataSHA256 != sha || of.Seed != seed {
+			// Written for another fit in this folder (or by a version that
+			// did not record it): not shown with this one.
+			s.Warnings = append(s.Warnings, "check.json in this folder does not belong to this fit (it was written for an earlier run); its checks are left out of this report: run lagstar check "+runDir+" again")
+			res.Stats = nil
+		}
 		for _, st := range res.Stats {
 			switch st.Kind {
 			case "transition", "lag2_transition", "person_transition", "run_length", "person_means", "lag1_correlation", "joint_share":

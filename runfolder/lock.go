@@ -17,6 +17,9 @@ import (
 // and a process that dies, however it dies, lets it go. The file holds the
 // holder's process id, for the message a second fit gets.
 func Lock(dir string) (func(), error) {
+	if st, err := os.Stat(dir); err != nil || !st.IsDir() {
+		return nil, model.Inputf(dir, 0, "not a run folder (expected the --out folder of lagstar fit)")
+	}
 	path := filepath.Join(dir, LockFile)
 	for range 10 {
 		f, err := os.OpenFile(path, os.O_CREATE|os.O_RDWR, 0o644)

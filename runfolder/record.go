@@ -85,3 +85,9 @@ func (r Record) SamplerOptions(dir string) (sampler.Options, error) {
 func (r Record) Unfinished() bool {
 	return r.Status == StatusRunning || r.Status == StatusInterrupted
 }
+
+// ID identifies the run of the record (for files made from it later, such
+// as check.json): when it started, its data and its seed.
+func (r Record) ID() (started, dataSHA256 string, seed uint64) {
+	return r.Started.UTC().Format(time.RFC3339Nano), r.DataSHA256, r.Seed
+}
