@@ -6,6 +6,7 @@
 package check
 
 import (
+	"context"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -66,6 +67,12 @@ func Run(l *sampler.Layout, draws [][]float64, n int, seed uint64) (*Result, err
 // RunProgress is Run that reports each replicated data set to progress
 // (done, total) when progress is not nil.
 func RunProgress(l *sampler.Layout, draws [][]float64, n int, seed uint64, progress func(done, total int)) (*Result, error) {
+	return RunContext(context.Background(), l, draws, n, seed, progress)
+}
+
+// RunContext is RunProgress that stops with ctx's error, between two
+// replicates, when ctx is cancelled.
+func RunContext(ctx context.Context, l *sampler.Layout, draws [][]float64, n int, seed uint64, progress func(done, total int)) (*Result, error) {
 	if len(draws) == 0 {
 		return nil, fmt.Errorf("check: no posterior draws")
 	}
@@ -77,6 +84,9 @@ func RunProgress(l *sampler.Layout, draws [][]float64, n int, seed uint64, progr
 	reps := make([][]float64, len(obs))
 	y := make([]float64, len(st.Y))
 	for d := 0; d < n; d++ {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
 		if err := st.Inject(draws[d]); err != nil {
 			return nil, err
 		}

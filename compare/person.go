@@ -1,6 +1,7 @@
 package compare
 
 import (
+	"context"
 	"math"
 	"math/rand/v2"
 	"runtime"
@@ -33,6 +34,12 @@ func LogLik(l *sampler.Layout, draws [][]float64, R int) ([][]float64, float64, 
 // LogLikProgress is LogLik that reports the draws done to progress (done,
 // total; called from several goroutines) when progress is not nil.
 func LogLikProgress(l *sampler.Layout, draws [][]float64, R int, progress func(done, total int)) ([][]float64, float64, error) {
+	return LogLikContext(context.Background(), l, draws, R, progress)
+}
+
+// LogLikContext is LogLikProgress that stops with ctx's error, between
+// two draws, when ctx is cancelled.
+func LogLikContext(ctx context.Context, l *sampler.Layout, draws [][]float64, R int, progress func(done, total int)) ([][]float64, float64, error) {
 	u := RandomizedPoints(R, l.MaxLen*l.J, ghkSets, 20261202)
 	out := make([][]float64, len(draws))
 	rel := make([][]float64, len(draws))
@@ -47,6 +54,10 @@ func LogLikProgress(l *sampler.Layout, draws [][]float64, R int, progress func(d
 			st := sampler.NewState(l, rand.New(rand.NewPCG(1, 2))) // starting values are overwritten
 			pw := newPersonWork(l)
 			for d := w; d < len(draws); d += workers {
+				if err := ctx.Err(); err != nil {
+					errs[d] = err
+					return
+				}
 				if err := st.Inject(draws[d]); err != nil {
 					errs[d] = err
 					continue

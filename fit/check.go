@@ -1,7 +1,9 @@
 package fit
 
 import (
+	"context"
 	"encoding/json"
+	"errors"
 
 	"github.com/lagstar/lagstar/check"
 	"github.com/lagstar/lagstar/report"
@@ -11,6 +13,8 @@ import (
 // CheckOptions says which run to check and how many posterior draws to
 // replicate from.
 type CheckOptions struct {
+	// Ctx, when not nil, stops the check (nothing written) when cancelled.
+	Ctx      context.Context
 	RunDir   string
 	Draws    int // 0: 400
 	Seed     uint64
@@ -34,7 +38,10 @@ func Check(o CheckOptions) (*check.Result, error) {
 	if err != nil {
 		return nil, err
 	}
-	res, err := check.RunProgress(run.Layout, run.Draws, o.Draws, o.Seed, o.Progress)
+	res, err := check.RunContext(ctxOr(o.Ctx), run.Layout, run.Draws, o.Draws, o.Seed, o.Progress)
+	if errors.Is(err, context.Canceled) {
+		return nil, errors.New("check interrupted: nothing written")
+	}
 	if err != nil {
 		return nil, err
 	}
@@ -79,4 +86,12 @@ func ppcStat(st check.Stat) report.PPCStat {
 	title, unit := check.KindInfo(st.Kind)
 	return report.PPCStat{Name: st.Name, Kind: st.Kind, Title: title, Unit: unit, Observed: st.Observed,
 		RepMean: st.RepMean, RepLow: st.RepLow, RepHigh: st.RepHigh, PPP: st.PPP}
+}
+
+// ctxOr returns ctx, or the background context when ctx is nil.
+func ctxOr(ctx context.Context) context.Context {
+	if ctx == nil {
+		return context.Background()
+	}
+	return ctx
 }

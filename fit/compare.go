@@ -1,7 +1,9 @@
 package fit
 
 import (
+	"context"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"path/filepath"
 	"slices"
@@ -14,6 +16,9 @@ import (
 
 // CompareOptions says which runs to compare and how precisely.
 type CompareOptions struct {
+	// Ctx, when not nil, stops the comparison (nothing written) when
+	// cancelled.
+	Ctx       context.Context
 	RunDirs   []string
 	Draws     int    // posterior draws per model (0: 200)
 	GHKPoints int    // quasi-random points of the GHK simulator (0: 300)
@@ -55,7 +60,10 @@ func Compare(o CompareOptions) ([]compare.ModelResult, error) {
 		if o.Progress != nil {
 			progress = func(done, total int) { o.Progress(m, len(o.RunDirs), done, total) }
 		}
-		ll, rel, err := compare.LogLikProgress(run.Layout, draws, o.GHKPoints, progress)
+		ll, rel, err := compare.LogLikContext(ctxOr(o.Ctx), run.Layout, draws, o.GHKPoints, progress)
+		if errors.Is(err, context.Canceled) {
+			return nil, errors.New("compare interrupted: nothing written")
+		}
 		if err != nil {
 			return nil, model.Inputf(dir, 0, "%v", err)
 		}

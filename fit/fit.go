@@ -121,6 +121,10 @@ func Fit(ctx context.Context, o Options) (*Outcome, error) {
 	if err != nil {
 		return nil, err
 	}
+	if ctx.Err() != nil {
+		// Stopped while the data were read: nothing has been written.
+		return nil, errors.New("interrupted before sampling started: nothing written")
+	}
 	ss := l.Spec.Sampler
 	opt := sampler.Options{Chains: ss.Chains, Warmup: ss.Warmup, Draws: ss.Draws, Seed: ss.Seed, ThresholdUpdate: ss.ThresholdUpdate,
 		PathMoves: ss.PathMoves, Progress: o.Progress, CheckpointEvery: ss.CheckpointEvery}

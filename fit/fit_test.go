@@ -546,3 +546,39 @@ func TestCheckBelongsToItsRun(t *testing.T) {
 		t.Errorf("check of a locked folder: %v, want a refusal", err)
 	}
 }
+
+// TestInterruptStopsEverything: a cancelled context (Ctrl-C, SIGTERM)
+// stops check and compare with nothing written, and a fit cancelled while
+// its data are read writes no run folder.
+func TestInterruptStopsEverything(t *testing.T) {
+	m, d := examples.SleepDiary()
+	a, b := t.TempDir(), t.TempDir()
+	for _, dir := range []string{a, b} {
+		if _, err := Fit(context.Background(), Options{FixedLength: true, ModelPath: "m.yaml", ModelRaw: m, DataRaw: d, OutDir: dir,
+			Chains: 2, Warmup: 10, Draws: 10, Seed: 1, SeedSet: true}); err != nil {
+			t.Fatal(err)
+		}
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	if _, err := Check(CheckOptions{Ctx: ctx, RunDir: a, Draws: 5}); err == nil || !strings.Contains(err.Error(), "interrupted") {
+		t.Errorf("check: %v, want interrupted", err)
+	}
+	if _, err := os.Stat(filepath.Join(a, runfolder.CheckFile)); !os.IsNotExist(err) {
+		t.Error("an interrupted check wrote check.json")
+	}
+	out := filepath.Join(t.TempDir(), "cmp.json")
+	if _, err := Compare(CompareOptions{Ctx: ctx, RunDirs: []string{a, b}, Draws: 4, GHKPoints: 10, Out: out}); err == nil || !strings.Contains(err.Error(), "interrupted") {
+		t.Errorf("compare: %v, want interrupted", err)
+	}
+	if _, err := os.Stat(out); !os.IsNotExist(err) {
+		t.Error("an interrupted compare wrote its file")
+	}
+	dir := filepath.Join(t.TempDir(), "new")
+	if _, err := Fit(ctx, Options{FixedLength: true, ModelPath: "m.yaml", ModelRaw: m, DataRaw: d, OutDir: dir, Chains: 1, Draws: 5, Seed: 1, SeedSet: true}); err == nil || !strings.Contains(err.Error(), "before sampling") {
+		t.Errorf("fit cancelled while loading: %v", err)
+	}
+	if _, err := os.Stat(dir); !os.IsNotExist(err) {
+		t.Error("a fit cancelled while loading created its folder")
+	}
+}

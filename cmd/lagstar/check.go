@@ -27,6 +27,7 @@ check.json into the run folder.`,
 		Args:    args(cobra.ExactArgs(1)),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			o.RunDir = args[0]
+			o.Ctx = cmd.Context()
 			var bar *chainProgress
 			if isTerminal(stderr) {
 				bar = newChainProgress(stderr, "replicates")

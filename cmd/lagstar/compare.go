@@ -31,6 +31,7 @@ standard errors. Continuous outcomes enter through their normal density.`,
 				bar = newChainProgress(stderr, "model")
 				o.Progress = bar.update
 			}
+			o.Ctx = cmd.Context()
 			res, err := fit.Compare(o)
 			if bar != nil {
 				bar.finish() // before the table: it clears its own lines
