@@ -9,6 +9,7 @@ import (
 	"path/filepath"
 	"reflect"
 	"strings"
+	"sync/atomic"
 	"testing"
 )
 
@@ -358,8 +359,9 @@ func TestInterruptThenResume(t *testing.T) {
 		t.Fatalf("exit %d: %s", code, stderr)
 	}
 	out := filepath.Join(dir, "cut")
-	ctx, cancel := context.WithCancel(context.Background())
-	cancel()
+	// Interrupted once sampling has begun: the context reads as cancelled
+	// from its second check on (the first is the fit's, after loading).
+	ctx := &lateCancel{Context: context.Background(), after: 1}
 	var so, se bytes.Buffer
 	if code := run(ctx, []string{"fit", mp, "--out", out, "--quiet"}, &so, &se); code != 1 {
 		t.Fatalf("interrupted fit: exit %d, want 1; stderr: %s", code, se.String())
@@ -586,4 +588,19 @@ func TestRunLengthFlags(t *testing.T) {
 			t.Errorf("fit %v: exit %d, stderr %q; want 2 naming %s", c.args, code, stderr, c.want)
 		}
 	}
+}
+
+// lateCancel is a context that reports itself cancelled from its
+// (after+1)-th Err call on.
+type lateCancel struct {
+	context.Context
+	n     atomic.Int32
+	after int32
+}
+
+func (c *lateCancel) Err() error {
+	if c.n.Add(1) > c.after {
+		return context.Canceled
+	}
+	return nil
 }
