@@ -52,6 +52,14 @@ func Lock(dir string) (func(), error) {
 			fmt.Fprintf(f, "%d\n", os.Getpid())
 			f.Sync()
 		}
+		// Temporary files left by a write that was killed half-way belong
+		// to nobody now that we hold the lock.
+		for _, pat := range []string{filepath.Join(dir, ".*.tmp*"), filepath.Join(dir, CheckpointDir, ".*.tmp*")} {
+			left, _ := filepath.Glob(pat)
+			for _, name := range left {
+				os.Remove(name)
+			}
+		}
 		return func() {
 			os.Remove(path) // before the lock goes, so a waiter re-checks
 			f.Close()

@@ -107,3 +107,23 @@ func TestLockExclusive(t *testing.T) {
 		t.Errorf("at most %d holders at once (want 1), %d locks taken (want 240)", maxHolders.Load(), taken.Load())
 	}
 }
+
+// TestLockRemovesKilledWrites: temporary files a killed write left behind
+// are removed when the lock is next taken.
+func TestLockRemovesKilledWrites(t *testing.T) {
+	dir := t.TempDir()
+	os.MkdirAll(filepath.Join(dir, CheckpointDir), 0o755)
+	for _, n := range []string{".summary.json.tmp123", filepath.Join(CheckpointDir, ".chain-1.ckpt.tmp9")} {
+		os.WriteFile(filepath.Join(dir, n), []byte("half"), 0o644)
+	}
+	release, err := Lock(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	release()
+	for _, pat := range []string{".*.tmp*", filepath.Join(CheckpointDir, ".*.tmp*")} {
+		if m, _ := filepath.Glob(filepath.Join(dir, pat)); len(m) > 0 {
+			t.Errorf("left behind: %v", m)
+		}
+	}
+}

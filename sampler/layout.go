@@ -1,8 +1,11 @@
 package sampler
 
 import (
+	"fmt"
 	"math"
 	"slices"
+	"strconv"
+	"strings"
 
 	"github.com/lagstar/lagstar/model"
 	"github.com/lagstar/lagstar/priors"
@@ -98,12 +101,20 @@ func NewLayout(sp *model.Spec, pan *model.Panel, pr priors.Set) *Layout {
 	for i := range l.MeanIdx {
 		l.MeanIdx[i] = -1
 	}
+	unanswered := make([][]string, J)
 	for t := 0; t < T; t++ {
 		for j := 0; j < J; j++ {
 			if l.MeansFree && t != l.Anchor[j] && observed[j][t] > 0 {
 				l.MeanIdx[t*J+j] = l.NMean
 				l.NMean++
+			} else if l.MeansFree && t != l.Anchor[j] {
+				unanswered[j] = append(unanswered[j], strconv.Itoa(pan.Occasions[t]))
 			}
+		}
+	}
+	for j, occ := range unanswered {
+		if len(occ) > 0 {
+			l.Notes = append(l.Notes, fmt.Sprintf("outcome %q was answered by nobody at occasion %s: no mean is estimated there (it would rest on the prior alone) and the mean stays fixed there (at the anchor occasion's level for a categorical outcome, at the overall mean for a continuous one)", pan.Outcomes[j].Name, strings.Join(occ, ", ")))
 		}
 	}
 	if !l.MeansFree {

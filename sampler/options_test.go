@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"strings"
 	"testing"
 
 	"github.com/lagstar/lagstar/model"
@@ -117,4 +118,29 @@ means: {over_time: %s}
 		}
 	}
 	t.Logf("%d combinations fitted, %d refused", fitted, refused)
+}
+
+// TestUnansweredOccasionNoted: with means free over time, an occasion at
+// which nobody answered an outcome gets no mean parameter (it would rest
+// on the prior alone) and the layout says so.
+func TestUnansweredOccasionNoted(t *testing.T) {
+	csv := "person,occasion,a,b\n"
+	for i := 1; i <= 6; i++ {
+		for occ := 1; occ <= 4; occ++ {
+			b := fmt.Sprint((i + occ) % 2)
+			if occ == 3 {
+				b = "NA"
+			}
+			csv += fmt.Sprintf("%d,%d,%d,%s\n", i, occ, (i*occ)%2, b)
+		}
+	}
+	l := layoutFrom(t, "data: {csv: x.csv, person: person, occasion: occasion, missing_codes: [NA]}\noutcomes: [{name: a, type: binary}, {name: b, type: binary}]\nmeans: {over_time: free}\n", []byte(csv))
+	for _, p := range l.Params() {
+		if p.Name == "mean[b,t=3]" {
+			t.Error("a mean was made for an occasion nobody answered")
+		}
+	}
+	if note := strings.Join(l.Notes, "\n"); !strings.Contains(note, `outcome "b" was answered by nobody at occasion 3`) {
+		t.Errorf("notes %q lack the unanswered occasion", note)
+	}
 }
