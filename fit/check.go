@@ -28,6 +28,9 @@ func Check(o CheckOptions) (*check.Result, error) {
 	if o.Draws <= 0 {
 		o.Draws = 400
 	}
+	if err := checkRange("--draws", o.Draws, 1, MaxCheckDraws); err != nil {
+		return nil, err
+	}
 	// The lock keeps a new fit from replacing the run while it is checked.
 	unlock, err := runfolder.Lock(o.RunDir)
 	if err != nil {

@@ -39,6 +39,12 @@ func Compare(o CompareOptions) ([]compare.ModelResult, error) {
 	if o.GHKPoints <= 0 {
 		o.GHKPoints = 300
 	}
+	if err := checkRange("--draws", o.Draws, 1, MaxCheckDraws); err != nil {
+		return nil, err
+	}
+	if err := checkRange("--ghk-points", o.GHKPoints, 1, MaxGHKPoints); err != nil {
+		return nil, err
+	}
 	var fits []compare.ModelFit
 	sha := ""
 	var first *sampler.Layout
@@ -56,6 +62,10 @@ func Compare(o CompareOptions) ([]compare.ModelResult, error) {
 			return nil, model.Inputf(dir, 0, "models fitted to other responses than %s cannot be compared: %s", o.RunDirs[0], why)
 		}
 		draws := sampler.EvenlySpaced(run.Draws, o.Draws)
+		// Person log-likelihoods and their GHK errors, for every model.
+		if need, have := mul(len(draws), run.Layout.N, 16, len(o.RunDirs)), MemoryCap(0); need > have {
+			return nil, model.Inputf(dir, 0, "comparing would need about %s of memory (%d draws x %d persons x %d models), more than the %s this machine allows; lower --draws", Bytes(need), len(draws), run.Layout.N, len(o.RunDirs), Bytes(have))
+		}
 		var progress func(done, total int)
 		if o.Progress != nil {
 			progress = func(done, total int) { o.Progress(m, len(o.RunDirs), done, total) }

@@ -10,6 +10,7 @@ import (
 	"errors"
 	"fmt"
 	"os"
+	"runtime/debug"
 	"time"
 
 	"github.com/lagstar/lagstar/model"
@@ -58,6 +59,10 @@ type Options struct {
 	// Overwrite lets a fit replace the lagstar run already in OutDir
 	// (finished or not); without it such a folder is refused.
 	Overwrite bool
+	// MaxMemory caps the memory a run may plan to use, in bytes (0: 80%
+	// of the machine's); a run whose estimate exceeds it is refused
+	// before anything is allocated.
+	MaxMemory int64
 	Progress  func(chain, chains, done, total int)
 }
 
@@ -107,7 +112,9 @@ func Prepare(o Options) (*sampler.Layout, error) {
 // model.InputError before anything is written. A cancelled ctx yields an
 // incomplete run, written and marked as such, whose chain checkpoints
 // (OutDir/checkpoints) let Resume finish it.
-func Fit(ctx context.Context, o Options) (*Outcome, error) {
+func Fit(ctx context.Context, o Options) (out *Outcome, err error) {
+	var jp *job // set once the job exists, so a panic marks its folder failed
+	defer recoverRun(&err, &jp)
 	if o.Level == 0 {
 		o.Level = 0.95
 	}
@@ -148,6 +155,7 @@ func Fit(ctx context.Context, o Options) (*Outcome, error) {
 	}
 	j := &job{l: l, opt: opt, dir: o.OutDir, level: o.Level, started: time.Now(), rounds: 1,
 		untilConverged: !o.FixedLength && (o.UntilConverged || ss.UntilConverged), maxDraws: ss.MaxDraws, timeLimit: ss.TimeLimit}
+	jp = j
 	if o.MaxDraws > 0 {
 		j.maxDraws = o.MaxDraws
 	}
@@ -159,6 +167,9 @@ func Fit(ctx context.Context, o Options) (*Outcome, error) {
 	}
 	if j.untilConverged && j.maxDraws < opt.Draws {
 		j.maxDraws = opt.Draws // the cap never cuts the first round
+	}
+	if err := j.checkSizes(o.MaxMemory); err != nil {
+		return nil, err
 	}
 	if j.dir != "" {
 		// A folder that is a file or holds files of the user's is refused
@@ -349,4 +360,42 @@ func NewSeed() uint64 {
 		return uint64(time.Now().UnixNano())
 	}
 	return binary.LittleEndian.Uint64(b[:]) >> 11 // keep it short enough to type
+}
+
+// checkSizes refuses, before anything is allocated or written, sizes out
+// of their ranges and a run whose memory estimate exceeds the cap.
+func (j *job) checkSizes(maxMemory int64) error {
+	o := j.opt
+	for _, c := range []struct {
+		flag      string
+		v, lo, hi int
+	}{{"--chains", o.Chains, 1, MaxChains}, {"--draws", o.Draws, 1, MaxDraws}, {"--warmup", o.Warmup, 0, MaxDraws},
+		{"--max-draws", j.maxDraws, 1, MaxDraws}, {"--checkpoint-every", o.CheckpointEvery, 0, MaxDraws}} {
+		if err := checkRange(c.flag, c.v, c.lo, c.hi); err != nil {
+			return err
+		}
+	}
+	draws, what := o.Draws, "--draws"
+	if j.untilConverged {
+		draws, what = max(o.Draws, j.maxDraws), "--max-draws (a run until converged may grow to it)"
+	}
+	need, have := fitMemory(j.l, o.Chains, draws), MemoryCap(maxMemory)
+	if need > have {
+		return model.Inputf("", 0, "the run would need about %s of memory (%d chains x %d draws of %d quantities, and the data), more than the %s allowed (--max-memory, default 80%% of this machine's); lower %s or --chains, or raise --max-memory",
+			Bytes(need), o.Chains, draws, len(j.l.Params())+len(j.l.DerivedParams()), Bytes(have), what)
+	}
+	return nil
+}
+
+// recoverRun turns a panic of the calling goroutine into an InternalError
+// in *err and, when the job *jp writes a folder, marks its run failed.
+func recoverRun(err *error, jp **job) {
+	p := recover()
+	if p == nil {
+		return
+	}
+	*err = &sampler.InternalError{Value: p, Stack: string(debug.Stack())}
+	if j := *jp; j != nil && j.dir != "" {
+		*err = j.failed(*err)
+	}
 }

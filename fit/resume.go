@@ -24,7 +24,9 @@ type ResumeOptions struct {
 // warning) from its run folder: the model and data copies, run.json's
 // settings and each chain's last checkpoint (a chain without one starts
 // afresh). The finished run folder equals that of a fit never stopped.
-func Resume(ctx context.Context, o ResumeOptions) (*Outcome, error) {
+func Resume(ctx context.Context, o ResumeOptions) (out *Outcome, err error) {
+	var jp *job
+	defer recoverRun(&err, &jp)
 	dir := o.RunDir
 	rec, l, err := runfolder.Open(dir)
 	if err != nil {
@@ -57,6 +59,7 @@ func Resume(ctx context.Context, o ResumeOptions) (*Outcome, error) {
 	j := &job{l: l, opt: opt, dir: dir, level: rec.Level, started: rec.Started, priorWall: float64(rec.WallSeconds),
 		untilConverged: rec.UntilConverged, maxDraws: rec.MaxDraws, rounds: max(rec.Rounds, 1),
 		timeLimit: time.Duration(rec.TimeLimitSeconds * float64(time.Second))}
+	jp = j
 	cps, err := runfolder.ReadCheckpoints(dir, opt.Chains)
 	if err != nil {
 		return nil, err

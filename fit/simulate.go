@@ -23,15 +23,18 @@ type SimulateOptions struct {
 // Simulate generates a long-format CSV from the model file's structure and
 // the truth file's values and writes it to o.Out. It returns the CSV.
 func Simulate(o SimulateOptions) ([]byte, error) {
-	if o.Persons < 1 {
-		return nil, model.Inputf("", 0, "--persons: expected at least 1, got %d", o.Persons)
+	if err := checkRange("--persons", o.Persons, 1, MaxSimPersons); err != nil {
+		return nil, err
 	}
-	if o.Occasions < 1 {
-		return nil, model.Inputf("", 0, "--occasions: expected at least 1, got %d", o.Occasions)
+	if err := checkRange("--occasions", o.Occasions, 1, MaxSimOccasion); err != nil {
+		return nil, err
 	}
 	sp, err := model.ReadSpec(o.ModelPath)
 	if err != nil {
 		return nil, err
+	}
+	if cells := mul(o.Persons, o.Occasions, len(sp.Outcomes)); cells > MaxSimCells {
+		return nil, model.Inputf("", 0, "--persons x --occasions x outcomes is %.3g cells, more than the %d one CSV may hold; simulate fewer persons or occasions (or several files)", cells, MaxSimCells)
 	}
 	ts, err := model.ReadTruth(o.TruthPath, sp)
 	if err != nil {

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"runtime/debug"
 	"sync"
 	"time"
 
@@ -165,6 +166,13 @@ func (r *Runner) run(ctx context.Context) error {
 		wg.Add(1)
 		go func(c int) {
 			defer wg.Done()
+			// An unexpected panic in a chain is an error of the run (the
+			// caller marks the run failed), not a crash of the program.
+			defer func() {
+				if p := recover(); p != nil {
+					errs[c] = &InternalError{Value: p, Stack: string(debug.Stack())}
+				}
+			}()
 			errs[c] = r.advance(ctx, c)
 		}(c)
 	}
@@ -315,4 +323,15 @@ func EvenlySpaced(v [][]float64, n int) [][]float64 {
 		out[k] = v[k*len(v)/n]
 	}
 	return out
+}
+
+// InternalError is a panic inside the sampler turned into an error: a bug
+// of lagstar, not of the input. Stack is where it happened.
+type InternalError struct {
+	Value any
+	Stack string
+}
+
+func (e *InternalError) Error() string {
+	return fmt.Sprintf("internal error: %v (a bug in lagstar; please report it with the command and, if you can, the model file and data)", e.Value)
 }

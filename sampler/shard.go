@@ -1,6 +1,7 @@
 package sampler
 
 import (
+	"fmt"
 	"math/rand/v2"
 	"runtime"
 	"sync"
@@ -55,10 +56,16 @@ func forShards(l *Layout, fn func(s, lo, hi int)) {
 	}
 	var next atomic.Int64
 	var wg sync.WaitGroup
+	var failed atomic.Value // the first panic of a worker, raised again below
 	for range workers {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
+			defer func() {
+				if p := recover(); p != nil {
+					failed.CompareAndSwap(nil, fmt.Sprint(p))
+				}
+			}()
 			for {
 				s := int(next.Add(1) - 1)
 				if s >= S {
@@ -69,6 +76,9 @@ func forShards(l *Layout, fn func(s, lo, hi int)) {
 		}()
 	}
 	wg.Wait()
+	if p := failed.Load(); p != nil {
+		panic(p) // in the chain's goroutine, whose recover reports it
+	}
 }
 
 // shardBufs allocates one buffer of length n per shard.

@@ -208,3 +208,45 @@ func TestSweepNamesFailingBlock(t *testing.T) {
 		t.Errorf("run: got %v, want the block and sweep named", err)
 	}
 }
+
+// panicBlock is a block with a bug.
+type panicBlock struct{}
+
+func (panicBlock) Name() string                    { return "buggy block" }
+func (panicBlock) Writes() Part                    { return 0 }
+func (panicBlock) Update(*State, *rand.Rand) error { panic("index out of range [7] with length 3") }
+
+// TestPanicBecomesError: a panic inside a chain, or inside a shard worker
+// of one, ends the run with an InternalError, not a crash.
+func TestPanicBecomesError(t *testing.T) {
+	p := problems()[1]
+	for _, n := range []int{50, 2*personsPerShard + 10} {
+		p.n = n
+		l := p.layout(t)
+		_, err := runOpts(context.Background(), l, Options{Chains: 2, Warmup: 2, Draws: 2, Seed: 1}, func(bs []Block) { bs[len(bs)-1] = panicBlock{} })
+		var ie *InternalError
+		if !errors.As(err, &ie) || !strings.Contains(err.Error(), "internal error") {
+			t.Errorf("%d persons: got %v, want an InternalError", n, err)
+		}
+		// In a shard worker: every shard's latent pass panics.
+		shardPanic := func(bs []Block) {
+			for k, b := range bs {
+				if _, ok := b.(*LatentBlock); ok {
+					bs[k] = &shardPanicBlock{}
+				}
+			}
+		}
+		if _, err := runOpts(context.Background(), l, Options{Chains: 1, Warmup: 1, Draws: 1, Seed: 1}, shardPanic); !errors.As(err, &ie) {
+			t.Errorf("%d persons, panic in a shard: got %v, want an InternalError", n, err)
+		}
+	}
+}
+
+type shardPanicBlock struct{}
+
+func (*shardPanicBlock) Name() string { return "buggy shard block" }
+func (*shardPanicBlock) Writes() Part { return 0 }
+func (*shardPanicBlock) Update(st *State, _ *rand.Rand) error {
+	forShards(st.L, func(s, lo, hi int) { panic("shard bug") })
+	return nil
+}

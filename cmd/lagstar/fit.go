@@ -26,6 +26,7 @@ type fitOptions struct {
 	fixedLength           bool
 	maxDraws              int
 	timeLimit             time.Duration
+	maxMemory             string
 	checkpointEvery       int
 	overwrite             bool
 	data                  string
@@ -100,13 +101,18 @@ func (o *fitOptions) bind(cmd *cobra.Command) {
 	f.BoolVar(&o.fixedLength, "fixed-length", false, "keep exactly --draws draws per chain (no extension rounds), whatever the diagnostics say")
 	f.IntVar(&o.maxDraws, "max-draws", 0, "cap on draws per chain when sampling until converged (default from the model file, else 20000)")
 	f.DurationVar(&o.timeLimit, "time-limit", 0, "when sampling until converged, start no round that would take sampling past this time (e.g. 10m, 2h; default from the model file, else none)")
+	f.StringVar(&o.maxMemory, "max-memory", "", "refuse a run whose memory estimate exceeds this (e.g. 4GB; default 80% of this machine's memory)")
 	f.BoolVar(&o.overwrite, "overwrite", false, "replace the lagstar run already in the --out folder (its files and figures are removed first)")
 }
 
 // fitOptions maps the sampler flags shared by fit and demo onto fit.Options.
 func (o *fitOptions) fitOptions(cmd *cobra.Command) fit.Options {
 	f := cmd.Flags()
-	return fit.Options{Chains: o.chains, Warmup: o.warmup, WarmupSet: f.Changed("warmup"), Draws: o.draws, Seed: o.seed, SeedSet: f.Changed("seed"), Level: o.level,
+	var maxMem int64
+	if o.maxMemory != "" {
+		maxMem, _ = fit.ParseBytes(o.maxMemory) // checked by validate
+	}
+	return fit.Options{MaxMemory: maxMem, Chains: o.chains, Warmup: o.warmup, WarmupSet: f.Changed("warmup"), Draws: o.draws, Seed: o.seed, SeedSet: f.Changed("seed"), Level: o.level,
 		UntilConverged: o.untilConverged, FixedLength: o.fixedLength, MaxDraws: o.maxDraws, TimeLimit: o.timeLimit,
 		CheckpointEvery: o.checkpointEvery, CheckpointSet: f.Changed("checkpoint-every"), Overwrite: o.overwrite}
 }
@@ -133,6 +139,8 @@ func (o *fitOptions) validate(cmd *cobra.Command) error {
 		return &usageError{fmt.Errorf("--time-limit: expected a positive duration such as 10m or 2h, got %s", o.timeLimit)}
 	case set("max-draws") && o.maxDraws < 1:
 		return &usageError{fmt.Errorf("--max-draws: expected a whole number >= 1, got %d", o.maxDraws)}
+	case o.maxMemory != "" && parseErr(fit.ParseBytes(o.maxMemory)) != nil:
+		return &usageError{fmt.Errorf("--max-memory: %v", parseErr(fit.ParseBytes(o.maxMemory)))}
 	case o.format != "text" && o.format != "json":
 		return &usageError{fmt.Errorf("--format: expected text or json, got %q", o.format)}
 	}
@@ -298,3 +306,6 @@ func (p *chainProgress) finish() {
 		fmt.Fprintf(p.w, "\x1b[%dA", p.drawn)
 	}
 }
+
+// parseErr returns the error of a (value, error) pair.
+func parseErr(_ int64, err error) error { return err }

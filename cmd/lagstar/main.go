@@ -12,6 +12,7 @@ import (
 	"syscall"
 
 	"github.com/lagstar/lagstar/model"
+	"github.com/lagstar/lagstar/sampler"
 	"github.com/spf13/cobra"
 )
 
@@ -30,7 +31,15 @@ func main() {
 }
 
 // run executes the command line args and returns the exit status.
-func run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+func run(ctx context.Context, args []string, stdout, stderr io.Writer) (code int) {
+	// No panic reaches the user as a Go trace: it is an internal error,
+	// exit 1 (the fit, when one was running, has marked its folder failed).
+	defer func() {
+		if p := recover(); p != nil {
+			fmt.Fprintf(stderr, "lagstar: %v\n", &sampler.InternalError{Value: p})
+			code = exitFailure
+		}
+	}()
 	root := newRootCmd(stdout, stderr)
 	root.SetArgs(args)
 	err := root.ExecuteContext(ctx)
