@@ -292,6 +292,9 @@ func ParsePanel(sp *Spec, file string, raw []byte) (*Panel, error) {
 	return pan, nil
 }
 
+// maxCell is the longest cell a data file may hold.
+const maxCell = 1 << 16
+
 // readRecords reads the data rows after the header, skipping blank lines
 // and rows whose every cell is empty (it returns how many of those), and
 // recording malformed rows in p, and hands each good row to fn with its
@@ -321,6 +324,13 @@ func readRecords(r *csv.Reader, file string, fields, trailing int, p *problems, 
 		}
 		if !slices.ContainsFunc(rec, func(c string) bool { return strings.TrimSpace(c) != "" }) {
 			emptyRows++ // a row of empty cells, as spreadsheets save them
+			continue
+		}
+		if k := slices.IndexFunc(rec, func(c string) bool { return len(c) > maxCell }); k >= 0 {
+			p.addf(file, line, "field %d is %d characters long (at most %d): no person id, occasion or answer is that long; is this the right file, or a column of free text?", k+1, len(rec[k]), maxCell)
+			if len(p.errs) >= maxReported {
+				return emptyRows
+			}
 			continue
 		}
 		for len(rec) > fields && len(rec) <= fields+trailing && strings.TrimSpace(rec[len(rec)-1]) == "" {

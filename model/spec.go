@@ -535,14 +535,16 @@ func (r *reader) outcome(n *yaml.Node, i int) OutcomeSpec {
 		r.p.addf(r.file, n.Line, "%s: missing key \"type\" (ordinal, binary or continuous)", key)
 	}
 	if v, ok := m["categories"]; ok {
+		before := len(r.p.errs)
 		o.Categories = r.intIn(v, key+": categories", 2, 11)
+		valid := len(r.p.errs) == before // an out-of-range value is reported once
 		if o.Type == Continuous {
 			r.p.addf(r.file, v.Line, "%s: categories given for a continuous outcome", key)
 		}
-		if o.Type == Binary && o.Categories != 2 {
+		if valid && o.Type == Binary && o.Categories != 2 {
 			r.p.addf(r.file, v.Line, "%s: a binary outcome has 2 categories, got %d", key, o.Categories)
 		}
-		if o.Type == Ordinal && o.Categories < 3 {
+		if valid && o.Type == Ordinal && o.Categories < 3 {
 			r.p.addf(r.file, v.Line, "%s: an ordinal outcome needs 3 to 11 categories, got %d (use type: binary for two)", key, o.Categories)
 		}
 	}
