@@ -135,3 +135,23 @@ func treeHash(t *testing.T, dir string) string {
 	})
 	return fmt.Sprintf("%x", h.Sum(nil))
 }
+
+// TestReadOnlyOutFolder: a fit into a folder it may not write exits with a
+// message naming the folder and leaves nothing half-written. Skipped when
+// run as root, whom permissions do not stop.
+func TestReadOnlyOutFolder(t *testing.T) {
+	if os.Geteuid() == 0 {
+		t.Skip("permissions do not apply to root")
+	}
+	dir, mp := setup(t, goodModel, goodData())
+	ro := filepath.Join(dir, "ro")
+	os.MkdirAll(ro, 0o555)
+	defer os.Chmod(ro, 0o755)
+	code, _, stderr := runCLI("fit", mp, "--out", filepath.Join(ro, "run"), "--quiet")
+	if code == 0 || !strings.Contains(stderr, ro) {
+		t.Errorf("exit %d, stderr %q; want a failure naming %s", code, stderr, ro)
+	}
+	if entries, _ := os.ReadDir(ro); len(entries) != 0 {
+		t.Errorf("wrote into the read-only folder: %v", entries)
+	}
+}
