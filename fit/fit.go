@@ -202,6 +202,7 @@ func Fit(ctx context.Context, o Options) (out *Outcome, err error) {
 		if err := runfolder.Begin(j.dir, l.Panel.Raw, j.record(nil)); err != nil {
 			return nil, fmt.Errorf("writing %s: %w", j.dir, err)
 		}
+		j.begun = true
 		if j.opt.Checkpoint, err = runfolder.PrepareCheckpoints(j.dir); err != nil {
 			return nil, err
 		}
@@ -253,6 +254,9 @@ type job struct {
 	maxDraws       int
 	timeLimit      time.Duration
 	rounds         int
+	// begun says the folder holds this job's run (run.json written), so a
+	// failure may be recorded there.
+	begun bool
 }
 
 // record is the run.json of the job: of res when it is not nil, else of a
@@ -395,7 +399,7 @@ func recoverRun(err *error, jp **job) {
 		return
 	}
 	*err = &sampler.InternalError{Value: p, Stack: string(debug.Stack())}
-	if j := *jp; j != nil && j.dir != "" {
+	if j := *jp; j != nil && j.dir != "" && j.begun {
 		*err = j.failed(*err)
 	}
 }

@@ -58,7 +58,7 @@ func Resume(ctx context.Context, o ResumeOptions) (out *Outcome, err error) {
 	opt.Progress = o.Progress
 	j := &job{l: l, opt: opt, dir: dir, level: rec.Level, started: rec.Started, priorWall: float64(rec.WallSeconds),
 		untilConverged: rec.UntilConverged, maxDraws: rec.MaxDraws, rounds: max(rec.Rounds, 1),
-		timeLimit: time.Duration(rec.TimeLimitSeconds * float64(time.Second))}
+		timeLimit: time.Duration(rec.TimeLimitSeconds * float64(time.Second)), begun: true}
 	jp = j
 	cps, err := runfolder.ReadCheckpoints(dir, opt.Chains)
 	if err != nil {
