@@ -19,6 +19,7 @@ var registry = []registryEntry{
 	{term: pathTerm{}, draw: 3, derived: 1},
 	{term: innovationTerm{}, draw: 4},
 	{term: firstOccasionTerm{}, draw: 5},
+	{term: transitionTerm{}, derived: 4},
 }
 
 // shardSplit: terms whose draw rank is below it start before the shard
