@@ -21,6 +21,7 @@ func TestDependencyDirection(t *testing.T) {
 		"check":          {"fit", "cmd", "report", "validate", "compare", "runfolder"},
 		"compare":        {"fit", "cmd", "report", "validate", "check", "runfolder"},
 		"internal/dense": {"model", "sampler", "priors", "report", "fit"},
+		"internal/bvn":   {"model", "sampler", "priors", "report", "fit", "catalog", "internal/dense"},
 		"catalog":        {"model", "sampler", "priors", "latentresp", "diagnostics", "report", "check", "compare", "validate", "fit", "cmd", "internal"},
 	}
 	for pkg, bad := range forbidden {
