@@ -178,6 +178,9 @@ func (ib *InterweaveBlock) sums(st *State, s, lo, hi int) {
 	for i := lo; i < hi; i++ {
 		off := l.Panel.Offset[i]
 		n := l.Panel.Len[i]
+		if n == 0 {
+			continue
+		}
 		for t := 0; t < n; t++ {
 			for j := 0; j < J; j++ {
 				v[t*J+j] = st.Ystar[off+t*J+j] - st.Nu[t*J+j]
