@@ -28,7 +28,7 @@ func HTMLReport(runDir string) (string, *report.Summary, error) {
 		if err := json.Unmarshal(rawCheck, &res); err != nil {
 			return "", nil, model.Inputf(runfolder.Path(runDir, runfolder.CheckFile), 0, "not valid: %v", err)
 		}
-		rec, _, err := runfolder.Open(runDir)
+		rec, err := runfolder.ReadRecord(runDir)
 		if err != nil {
 			return "", nil, err
 		}

@@ -157,7 +157,7 @@ type Convergence struct {
 // CheckConvergence applies the convergence rule to res.
 func CheckConvergence(res *sampler.Result) Convergence {
 	es := entries(res.Params, res.Draws, res.Kept, 0.95)
-	es = append(es, tableOnly(entries(res.Derived, res.DerivedDraws, res.Kept, 0.95))...)
+	es = append(es, entriesOf(res.Derived, res.DerivedDraws, res.Kept, 0.95, func(p sampler.Param) bool { return catalog.Tabled(p.Kind) })...)
 	c := Convergence{OK: true, MinESS: math.Inf(1)}
 	for _, e := range es {
 		r, b, t := float64(e.Rhat), float64(e.ESSBulk), float64(e.ESSTail)
@@ -341,6 +341,12 @@ func tableOnly(es []Entry) []Entry {
 // of goroutines and results land by index, so the output does not depend on
 // scheduling.
 func entries(ps []sampler.Param, draws [][]float64, kept []int, level float64) []Entry {
+	return entriesOf(ps, draws, kept, level, nil)
+}
+
+// entriesOf is entries for the quantities keep accepts (all when keep is
+// nil), in their order; the others are not summarized at all.
+func entriesOf(ps []sampler.Param, draws [][]float64, kept []int, level float64, keep func(sampler.Param) bool) []Entry {
 	out := make([]Entry, len(ps))
 	n := len(ps)
 	minKept := kept[0]
@@ -356,6 +362,9 @@ func entries(ps []sampler.Param, draws [][]float64, kept []int, level float64) [
 			chains := make([][]float64, len(draws))
 			for p := w; p < n; p += workers {
 				par := ps[p]
+				if keep != nil && !keep(par) {
+					continue
+				}
 				e := Entry{Name: par.Name, Kind: par.Kind, Outcome: par.Outcome, From: par.From, Outcomes: par.Pair,
 					Occasion: par.Occasion, Index: par.Index, table: catalog.Tabled(par.Kind), Level: Num(level)}
 				if minKept == 0 {
@@ -380,6 +389,9 @@ func entries(ps []sampler.Param, draws [][]float64, kept []int, level float64) [
 		}(w)
 	}
 	wg.Wait()
+	if keep != nil {
+		out = slices.DeleteFunc(out, func(e Entry) bool { return e.Name == "" })
+	}
 	return out
 }
 

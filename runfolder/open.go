@@ -20,13 +20,9 @@ import (
 // recorded SHA-256 and rebuilds the layout from the saved model content.
 // Outputs made from the layout name the files the run was first given.
 func Open(dir string) (Record, *sampler.Layout, error) {
-	var rec Record
-	rawRun, err := Read(dir, RunFile)
+	rec, err := ReadRecord(dir)
 	if err != nil {
 		return rec, nil, err
-	}
-	if err := json.Unmarshal(rawRun, &rec); err != nil || rec.Program != report.Program {
-		return rec, nil, model.Inputf(Path(dir, RunFile), 0, "not a run record of lagstar fit")
 	}
 	data, err := Read(dir, DataFile)
 	if err != nil {
@@ -49,6 +45,19 @@ func Open(dir string) (Record, *sampler.Layout, error) {
 	}
 	sp.Path, pan.File = rec.ModelFile, rec.DataFile
 	return rec, sampler.NewLayout(sp, pan, priors.Default()), nil
+}
+
+// ReadRecord reads and decodes dir's run.json alone.
+func ReadRecord(dir string) (Record, error) {
+	var rec Record
+	raw, err := Read(dir, RunFile)
+	if err != nil {
+		return rec, err
+	}
+	if err := json.Unmarshal(raw, &rec); err != nil || rec.Program != report.Program {
+		return rec, model.Inputf(Path(dir, RunFile), 0, "not a run record of lagstar fit")
+	}
+	return rec, nil
 }
 
 // Run is a finished run folder read back: its layout (rebuilt from the
@@ -102,6 +111,12 @@ func parseDraws(raw []byte, l *sampler.Layout, file string) ([][]float64, error)
 	if err != nil {
 		return nil, model.Inputf(file, 0, "not valid CSV: %v", err)
 	}
+	return drawVectors(recs, l, file)
+}
+
+// drawVectors turns draws.csv's records into parameter vectors in the
+// order of l.Params, matching columns by name.
+func drawVectors(recs [][]string, l *sampler.Layout, file string) ([][]float64, error) {
 	if len(recs) < 2 {
 		return nil, model.Inputf(file, 0, "has no draws")
 	}
@@ -188,7 +203,7 @@ func ReadResult(dir string) (*sampler.Result, Record, error) {
 	if err != nil || len(recs) < 2 || len(recs[0]) < 3 || recs[0][0] != "chain" {
 		return nil, rec, model.Inputf(file, 0, "not a draws file (columns chain, draw, then parameters)")
 	}
-	vecs, err := parseDraws(raw, l, file)
+	vecs, err := drawVectors(recs, l, file)
 	if err != nil {
 		return nil, rec, err
 	}

@@ -81,24 +81,8 @@ func (ib *InterweaveBlock) Update(st *State, rng *rand.Rand) error {
 			for j := 0; j < J; j++ {
 				ia[j*J+j]++
 			}
-			for a := 0; a < J; a++ {
-				for b := 0; b < J; b++ {
-					v := 0.0
-					for k := 0; k < J; k++ {
-						v += si[a*J+k] * ia[k*J+b]
-					}
-					sm[a*J+b] = v
-				}
-			}
-			for a := 0; a < J; a++ {
-				for b := 0; b < J; b++ {
-					v := 0.0
-					for k := 0; k < J; k++ {
-						v += ia[k*J+a] * sm[k*J+b]
-					}
-					mt[a*J+b] = v
-				}
-			}
+			dense.Mul(sm, si, ia, J, J, J)
+			dense.MulTA(mt, ia, sm, J, J, J)
 		}
 		for k := 0; k < JJ; k++ {
 			prev := 0.0

@@ -58,6 +58,10 @@ type Layout struct {
 	// Terms are the model terms the layout has, in registry order
 	// (registry.go).
 	Terms []Term
+	// The occasions that carry path parameters, ICCs and transition
+	// probabilities (pathOccasions, iccOccasions, transitionOccasions),
+	// fixed with the layout so extracting a draw allocates nothing.
+	pathOcc, iccOcc, transOcc []int
 }
 
 // CovGroup is one free covariance matrix: the first occasion's or an
@@ -173,6 +177,7 @@ func NewLayout(sp *model.Spec, pan *model.Panel, pr priors.Set) *Layout {
 		l.GroupOf[0] = add(CovGroup{Initial: true, Occ: []int{0}, FreeSD: freeSD, Corr: corr})
 	}
 	l.ShardStart = shardBounds(l.N)
+	l.pathOcc, l.iccOcc, l.transOcc = l.occasionLists()
 	l.Terms = activeTerms(l)
 	l.CountAt = make([]int, T)
 	for _, n := range pan.Len {
@@ -219,3 +224,35 @@ func (l *Layout) hasFreeCovariance() bool {
 	}
 	return false
 }
+
+// occasionLists returns the occasions of the path parameters (1 when paths
+// are equal over time, else 1..T-1), of the ICCs (-1: one per outcome,
+// when paths are equal; else every occasion) and of the transition
+// probabilities (-1: one set, when paths and means are equal; else 1..T-1).
+func (l *Layout) occasionLists() (paths, icc, trans []int) {
+	from := func(lo int) []int {
+		out := make([]int, 0, max(l.T-lo, 0))
+		for t := lo; t < l.T; t++ {
+			out = append(out, t)
+		}
+		return out
+	}
+	paths, icc, trans = []int{1}, []int{-1}, []int{-1}
+	if l.PathsFree {
+		paths, icc = from(1), from(0)
+	}
+	if l.PathsFree || l.MeansFree {
+		trans = from(1)
+	}
+	return paths, icc, trans
+}
+
+// pathOccasions returns the occasions whose paths are parameters.
+func (l *Layout) pathOccasions() []int { return l.pathOcc }
+
+// iccOccasions returns the occasions of the ICCs (-1: one per outcome).
+func (l *Layout) iccOccasions() []int { return l.iccOcc }
+
+// transitionOccasions returns the occasions of the transition
+// probabilities (-1: one set).
+func (l *Layout) transitionOccasions() []int { return l.transOcc }

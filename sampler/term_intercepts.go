@@ -151,19 +151,6 @@ func (interceptTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []
 	return dst
 }
 
-// iccOccasions returns -1 for a single ICC per outcome (paths equal over
-// time), else every occasion.
-func (l *Layout) iccOccasions() []int {
-	if !l.PathsFree {
-		return []int{-1}
-	}
-	out := make([]int, l.T)
-	for t := range out {
-		out[t] = t
-	}
-	return out
-}
-
 func init() {
 	catalog.Register(
 		catalog.Kind{Name: "ri_variance", Section: catalog.Between, Tabled: true, Manuscript: "Between persons",

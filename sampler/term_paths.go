@@ -21,19 +21,6 @@ func (pathTerm) Name() string { return "carry-over and cross-lag paths" }
 
 func (pathTerm) Active(l *Layout) bool { return l.HasPaths() && l.T > 1 }
 
-// pathOccasions returns the occasions whose paths are parameters: 1 when
-// paths are equal over time, else 1..T-1.
-func (l *Layout) pathOccasions() []int {
-	if !l.PathsFree {
-		return []int{1}
-	}
-	out := make([]int, 0, l.T-1)
-	for t := 1; t < l.T; t++ {
-		out = append(out, t)
-	}
-	return out
-}
-
 // pathParams lists the paths of the given kinds (autoregression and
 // crosslag, or their std_ forms) in State.A order.
 func pathParams(l *Layout, prefix string) []Param {

@@ -37,19 +37,6 @@ func (transitionTerm) Start(*State, *rand.Rand)                  {}
 func (transitionTerm) Prior(*State, priors.Set, *rand.Rand)      {}
 func (transitionTerm) Blocks(*Layout, Options) []Placed          { return nil }
 
-// transitionOccasions returns -1 for one set (paths and means equal over
-// time), else 1..T-1.
-func (l *Layout) transitionOccasions() []int {
-	if !l.PathsFree && !l.MeansFree {
-		return []int{-1}
-	}
-	out := make([]int, 0, l.T-1)
-	for t := 1; t < l.T; t++ {
-		out = append(out, t)
-	}
-	return out
-}
-
 var transitionScopes = []string{"typical", "average"}
 
 func (transitionTerm) DerivedParams(l *Layout) []Param {
