@@ -115,6 +115,10 @@ func (pw *personWork) prepare(st *sampler.State) {
 	l := st.L
 	J, T := l.J, l.T
 	JJ := J * J
+	if l.MA {
+		st.WithinCovariances(pw.v, pw.blocks, pw.tmp)
+		return
+	}
 	copy(pw.v[:JJ], st.Sig[:JJ])
 	for t := 1; t < T; t++ {
 		dense.Mul(pw.tmp, st.A[t*JJ:(t+1)*JJ], pw.v[(t-1)*JJ:t*JJ], J, J, J)

@@ -55,6 +55,9 @@ func Identify(sp *Spec, pan *Panel) error {
 	if sp.Within.StationaryStart && sp.Within.PathsFree {
 		p.addf(f, 0, "dynamics.first_occasion: stationary needs dynamics.over_time: equal; a stationary distribution exists only when the carry-over paths and innovations are the same at every occasion")
 	}
+	if sp.Within.MovingAverage {
+		identifyMovingAverage(p, sp, T)
+	}
 	if sp.Within.Lags == LagsCross && J < 2 {
 		p.addf(f, 0, "dynamics.lags: cross needs at least two outcomes (there is %d); use lags: own for one outcome", J)
 	}
@@ -87,6 +90,27 @@ func Identify(sp *Spec, pan *Panel) error {
 		}
 	}
 	return p.err()
+}
+
+// identifyMovingAverage checks the occasions an ARMA(1,1) within part
+// needs. The first occasion is exogenous and is not an innovation of the
+// process, so the moving-average term first acts at the third occasion
+// (on the innovation of the second): without random intercepts that
+// takes three occasions. With random intercepts it takes four: the
+// covariances of the within part at lags 1, 2 and 3 are what separate a
+// constant person difference (the same at every lag) from carry-over
+// (geometric from lag 1 on) and the moving average (which acts at lag 1
+// only), and a panel of three occasions has lags 1 and 2 alone.
+func identifyMovingAverage(p *problems, sp *Spec, T int) {
+	f := sp.Path
+	switch {
+	case sp.Within.StationaryStart:
+		p.addf(f, 0, "dynamics.moving_average: true needs dynamics.first_occasion: free; a stationary first occasion for ARMA(1,1) residuals is not available")
+	case sp.Between.RandomIntercepts && T < 4:
+		p.addf(f, 0, "dynamics.moving_average: true with random intercepts needs at least four occasions (the data have %d): separating a stable person difference, carry-over and the moving average takes the within-person covariances at lags 1, 2 and 3", T)
+	case T < 3:
+		p.addf(f, 0, "dynamics.moving_average: true needs at least three occasions (the data have %d): the first occasion is exogenous, so the moving average first acts at the third", T)
+	}
 }
 
 // withinInformation reports whether some person has observed values at

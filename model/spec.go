@@ -113,6 +113,9 @@ type WithinSpec struct {
 	residualSet         bool
 	PathsFree           bool // over_time: free
 	StationaryStart     bool // first_occasion: stationary
+	// MovingAverage (dynamics.moving_average) adds M zeta_{t-1} to the
+	// within part: ARMA(1,1) residuals with one coefficient per outcome.
+	MovingAverage bool
 }
 
 // MeansSpec is the occasion-mean structure.
@@ -161,7 +164,7 @@ var schema = map[string][]string{
 	"data":               {"csv", "person", "occasion", "missing_codes", "separator", "layout", "wide_columns"},
 	"outcomes":           {"name", "display_name", "type", "categories", "lowest", "labels", "empty_categories", "columns"},
 	"person_differences": {"random_intercepts"},
-	"dynamics":           {"lags", "residual_correlation", "over_time", "first_occasion"},
+	"dynamics":           {"lags", "residual_correlation", "over_time", "first_occasion", "moving_average"},
 	"means":              {"over_time", "anchor"},
 	"sampler":            {"chains", "warmup", "draws", "seed", "threshold_update", "until_converged", "max_draws", "time_limit", "path_moves", "checkpoint_every"},
 }
@@ -320,6 +323,9 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 		}
 		if v, ok := m["first_occasion"]; ok {
 			sp.Within.StationaryStart = r.choice(v, "dynamics.first_occasion", "free", "stationary") == "stationary"
+		}
+		if v, ok := m["moving_average"]; ok {
+			sp.Within.MovingAverage = r.boolean(v, "dynamics.moving_average")
 		}
 	}
 	if n, ok := top["means"]; ok {

@@ -269,6 +269,8 @@ type InterceptBlock struct {
 	cum   []float64 // T blocks: precision for a person with t+1 occasions
 	chol  []float64 // T blocks: Cholesky factors of cum
 	psiIn []float64
+	gp    []float64   // ARMA(1,1): the previous occasion's G
+	rp    [][]float64 // ARMA(1,1): per shard, the previous r
 	e, h  [][]float64 // per shard
 	r     [][]float64 // per shard
 	tmp   []float64
@@ -278,7 +280,7 @@ type InterceptBlock struct {
 func NewInterceptBlock(l *Layout) *InterceptBlock {
 	J, T := l.J, l.T
 	return &InterceptBlock{g: make([]float64, T*J*J), cum: make([]float64, T*J*J), chol: make([]float64, T*J*J),
-		psiIn: make([]float64, J*J), e: shardBufs(l, l.MaxLen*J), h: shardBufs(l, J), r: shardBufs(l, J), tmp: make([]float64, 3*J*J)}
+		psiIn: make([]float64, J*J), gp: make([]float64, J*J), rp: shardBufs(l, J), e: shardBufs(l, l.MaxLen*J), h: shardBufs(l, J), r: shardBufs(l, J), tmp: make([]float64, 3*J*J)}
 }
 
 // Name implements Block.
@@ -323,6 +325,20 @@ func (ib *InterceptBlock) prepare(st *State) error {
 			}
 			for k := 0; k < J; k++ {
 				ima[k*J+k]++
+			}
+			if l.MA {
+				// G_t = (I - A_t) - M_t G_{t-1}: the innovations of a
+				// unit shift of every occasion (movingavg.go).
+				if t == 1 {
+					dense.Identity(ib.gp, J)
+				}
+				for r := 0; r < J; r++ {
+					m := st.M[t*J+r]
+					for c := 0; c < J; c++ {
+						ima[r*J+c] -= m * ib.gp[r*J+c]
+					}
+				}
+				copy(ib.gp, ima)
 			}
 			g := ib.g[t*JJ : (t+1)*JJ]
 			dense.MulTA(g, ima, st.SigInv[t*JJ:(t+1)*JJ], J, J, J)
@@ -382,6 +398,10 @@ func (ib *InterceptBlock) personSums(st *State, s, i int, quad bool) float64 {
 			sum += e[q] * h[q]
 		}
 	}
+	rp := ib.rp[s]
+	if l.MA {
+		copy(rp, e[:J])
+	}
 	for t := 1; t < Ti; t++ {
 		a := st.A[t*JJ : (t+1)*JJ]
 		for q := 0; q < J; q++ {
@@ -390,6 +410,12 @@ func (ib *InterceptBlock) personSums(st *State, s, i int, quad bool) float64 {
 				v -= a[q*J+k] * e[(t-1)*J+k]
 			}
 			r[q] = v
+		}
+		if l.MA {
+			for q := 0; q < J; q++ {
+				r[q] -= st.M[t*J+q] * rp[q]
+			}
+			copy(rp, r)
 		}
 		g := ib.g[t*JJ : (t+1)*JJ]
 		for q := 0; q < J; q++ {

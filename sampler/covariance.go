@@ -28,6 +28,7 @@ type CovBlock struct {
 	logStep [][]float64 // per group: J sd steps then J*J correlation steps
 	tries   [][]int
 	rounds  int
+	w, z    []float64 // ARMA(1,1) scratch
 }
 
 // NewCovBlock allocates the block's workspace.
@@ -61,6 +62,23 @@ func (cb *CovBlock) Update(st *State, rng *rand.Rand) error {
 			cb.stats[g][k] = 0
 		}
 		cb.n[g] = 0
+	}
+	if l.MA {
+		for t := 0; t < l.T; t++ {
+			if g := l.GroupOf[t]; g >= 0 {
+				cb.n[g] += float64(l.CountAt[t])
+			}
+		}
+		if cb.w == nil {
+			cb.w, cb.z = make([]float64, l.MaxLen*J), make([]float64, l.MaxLen*J)
+		}
+		st.innovationSums(cb.stats, cb.w, cb.z)
+		for g, grp := range l.Groups {
+			if err := cb.updateGroup(st, rng, g, grp); err != nil {
+				return err
+			}
+		}
+		return st.Refresh()
 	}
 	st.ensureMoments()
 	m := st.Mom

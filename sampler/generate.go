@@ -22,9 +22,13 @@ type Generator struct {
 	Nu   []float64   // T x J occasion means (nil: 0)
 	Tau  [][]float64 // thresholds per categorical outcome
 	A    []float64   // T blocks of J x J, block 0 unused (nil: no carry-over)
+	// M holds moving-average coefficients (T x J, nil: none): w_t gains
+	// M_t zeta_{t-1} (movingavg.go; zero at the first two occasions).
+	M []float64
 
 	sigChol, psiChol []float64
 	z, cur, prev     []float64
+	zeta, zetaPrev   []float64
 }
 
 // NewGenerator factors the covariances: sig holds Sigma_t for t =
@@ -56,7 +60,11 @@ func (s *State) Generator() (*Generator, error) {
 	if s.L.RI {
 		psi = s.Psi
 	}
-	return NewGenerator(s.L.J, s.L.T, s.L.Cat, s.Nu, s.Tau, s.A, s.Sig, psi)
+	g, err := NewGenerator(s.L.J, s.L.T, s.L.Cat, s.Nu, s.Tau, s.A, s.Sig, psi)
+	if err == nil && s.L.MA {
+		g.M = s.M
+	}
+	return g, err
 }
 
 func (g *Generator) draw(dst, chol []float64, rng *rand.Rand) {
@@ -82,6 +90,18 @@ func (g *Generator) Person(n int, rng *rand.Rand, b []float64, cell func(t, j in
 	cur, prev := g.cur, g.prev
 	for t := 0; t < n; t++ {
 		g.draw(cur, g.sigChol[t*JJ:(t+1)*JJ], rng)
+		if g.M != nil {
+			if g.zeta == nil {
+				g.zeta, g.zetaPrev = make([]float64, J), make([]float64, J)
+			}
+			copy(g.zeta, cur)
+			if t > 0 {
+				for r := 0; r < J; r++ {
+					cur[r] += g.M[t*J+r] * g.zetaPrev[r]
+				}
+			}
+			copy(g.zetaPrev, g.zeta)
+		}
 		if t > 0 && g.A != nil {
 			a := g.A[t*JJ : (t+1)*JJ]
 			for r := 0; r < J; r++ {

@@ -31,6 +31,9 @@ type Layout struct {
 	PathsFree bool
 	Stat      bool // stationary first occasion
 	MeansFree bool
+	// MA: ARMA(1,1) within parts (term_movingavg.go); maFixed (tests
+	// only) keeps the moving-average coefficients where they start.
+	MA, maFixed bool
 
 	// MeanIdx[t*J+j] is the index of the free mean parameter of outcome j at
 	// grid occasion t, or -1 where the mean is fixed at 0: a categorical
@@ -78,7 +81,8 @@ func NewLayout(sp *model.Spec, pan *model.Panel, pr priors.Set) *Layout {
 	J, T := pan.J(), pan.T()
 	l := &Layout{Spec: sp, Panel: pan, Priors: pr, J: J, T: T, N: len(pan.Persons),
 		RI: sp.Between.RandomIntercepts, Lags: sp.Within.Lags, ResCorr: sp.Within.ResidualCorrelation,
-		PathsFree: sp.Within.PathsFree, Stat: sp.Within.StationaryStart, MeansFree: sp.Means.Free}
+		PathsFree: sp.Within.PathsFree, Stat: sp.Within.StationaryStart, MeansFree: sp.Means.Free,
+		MA: sp.Within.MovingAverage && pan.T() > 2}
 	if T < 2 {
 		l.Lags = model.LagsNone
 	}

@@ -24,6 +24,8 @@ type MeanBlock struct {
 	cols       []int
 	colv       []float64
 	r, tmp     []float64
+	// ARMA(1,1) scratch (updateMA, movingavg.go).
+	maE, maR, maZ, maZp, maSZ, maSum []float64
 }
 
 // NewMeanBlock allocates the block's workspace.
@@ -40,6 +42,9 @@ func (*MeanBlock) Name() string { return "occasion means" }
 // Update implements Block.
 func (mb *MeanBlock) Update(st *State, rng *rand.Rand) error {
 	l := st.L
+	if l.MA {
+		return mb.updateMA(st, rng)
+	}
 	J, T, p := l.J, l.T, mb.p
 	JJ := J * J
 	for k := range mb.sumE {

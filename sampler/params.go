@@ -56,7 +56,7 @@ type DerivedWork struct {
 // NewDerivedWork allocates scratch for ExtractDerived.
 func NewDerivedWork(l *Layout) *DerivedWork {
 	return &DerivedWork{v: make([]float64, l.T*l.J*l.J), tmp: make([]float64, l.J*l.J), ref: make([]float64, l.J*l.J),
-		st: make([]float64, 6*l.J*l.J), terms: derivedOrder(l)}
+		st: make([]float64, 7*l.J*l.J), terms: derivedOrder(l)}
 }
 
 // ExtractDerived writes the derived quantities of DerivedParams. The
@@ -70,6 +70,17 @@ func (s *State) ExtractDerived(dst []float64, dw *DerivedWork) []float64 {
 	JJ := J * J
 	dst = dst[:0]
 	v := dw.v
+	if l.MA {
+		s.WithinCovariances(v, nil, dw.tmp)
+		dw.refV = v[(T-1)*JJ : T*JJ]
+		if !l.PathsFree && stationaryARMA(dw.ref, s.A[JJ:2*JJ], s.Sig[JJ:2*JJ], s.M[2*J:3*J], J, dw.st) {
+			dw.refV = dw.ref
+		}
+		for _, t := range dw.terms {
+			dst = t.ExtractDerived(s, dw, dst)
+		}
+		return dst
+	}
 	copy(v[:JJ], s.Sig[:JJ])
 	for t := 1; t < T; t++ {
 		dense.Mul(dw.tmp, s.A[t*JJ:(t+1)*JJ], v[(t-1)*JJ:t*JJ], J, J, J)

@@ -150,3 +150,78 @@ func repeatPair(a, b float64, n int) []float64 {
 	}
 	return out
 }
+
+// TestRecoveryMovingAverage fits ARMA(1,1) within parts (ordinal with
+// random intercepts; two continuous outcomes with cross-lags and without
+// random intercepts) to data simulated from known values and requires
+// the 95% intervals to cover at least 90% of the true values.
+func TestRecoveryMovingAverage(t *testing.T) {
+	if testing.Short() {
+		t.Skip("recovery fits skipped in -short mode")
+	}
+	cases := []struct {
+		name       string
+		yaml       string
+		tr         Truth
+		n, periods int
+	}{
+		{
+			name: "ordinal ARMA(1,1) with random intercepts",
+			yaml: `
+data: {csv: x.csv, person: person, occasion: occasion}
+outcomes: [{name: y, type: ordinal, categories: 4, lowest: 0}]
+dynamics: {lags: own, moving_average: true}
+means: {over_time: equal}
+`,
+			tr: Truth{Names: []string{"y"}, Types: []model.OutcomeType{model.Ordinal},
+				Tau: [][]float64{{-0.8, 0.1, 0.9}}, Psi: []float64{0.5},
+				A: []float64{0.6}, MA: []float64{-0.35}, Sigma: []float64{1}, Sigma1: []float64{1}, Missing: 0.05},
+			n: 300, periods: 10,
+		},
+		{
+			name: "two continuous ARMA(1,1), cross-lagged, no random intercepts",
+			yaml: `
+data: {csv: x.csv, person: person, occasion: occasion}
+outcomes: [{name: a, type: continuous}, {name: b, type: continuous}]
+person_differences: {random_intercepts: false}
+dynamics: {lags: cross, moving_average: true}
+means: {over_time: equal}
+`,
+			tr: Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Continuous, model.Continuous}, Tau: [][]float64{nil, nil},
+				A: []float64{0.5, 0.15, -0.1, 0.3}, MA: []float64{0.4, -0.3},
+				Sigma: []float64{1, 0.3, 0.3, 1}, Sigma1: []float64{1.5, 0.2, 0.2, 1.2}, Missing: 0.05},
+			n: 200, periods: 8,
+		},
+	}
+	for ci, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			csv, err := Simulate(c.tr, c.n, c.periods, newRand(uint64(60+ci)))
+			if err != nil {
+				t.Fatal(err)
+			}
+			l := layoutFrom(t, c.yaml, csv)
+			res := runFit(t, l, 2, 600, 600, uint64(17+ci))
+			s := summarize(res)
+			truth := truthValues(c.tr, l)
+			for j, m := range c.tr.MA {
+				truth[fmt.Sprintf("moving_average[%s]", c.tr.Names[j])] = m
+			}
+			covered := 0
+			for _, p := range res.Params {
+				want, ok := truth[p.Name]
+				if !ok {
+					t.Fatalf("no true value for %s", p.Name)
+				}
+				got := s[p.Name]
+				in := got.lo <= want && want <= got.hi
+				if in {
+					covered++
+				}
+				t.Logf("%-36s true %8.3f  mean %8.3f  95%% [%8.3f, %8.3f] %v", p.Name, want, got.mean, got.lo, got.hi, in)
+			}
+			if frac := float64(covered) / float64(len(res.Params)); frac < 0.9 {
+				t.Errorf("95%% intervals cover %d of %d true values (%.0f%%), want at least 90%%", covered, len(res.Params), 100*frac)
+			}
+		})
+	}
+}

@@ -23,6 +23,9 @@ type Truth struct {
 	A      []float64   // J x J carry-over (equal over time); nil: none
 	Sigma  []float64   // J x J innovation covariance
 	Sigma1 []float64   // J x J first-occasion covariance; nil: stationary
+	// MA holds moving-average coefficients (one per outcome, equal over
+	// time; nil: none); it needs Sigma1.
+	MA []float64
 	// Missing is the probability that a cell is missing; such cells are
 	// written as MissingCode ("NA" when empty and MissingSet is false).
 	Missing     float64
@@ -50,6 +53,9 @@ func Simulate(tr Truth, n, t int, rng *rand.Rand) ([]byte, error) {
 	if a == nil {
 		a = make([]float64, JJ)
 	}
+	if sig1 == nil && tr.MA != nil {
+		return nil, fmt.Errorf("simulate: moving averages need a first-occasion covariance")
+	}
 	if sig1 == nil {
 		sig1 = make([]float64, JJ)
 		if !stationaryCov(sig1, a, tr.Sigma, J, make([]float64, 6*JJ)) {
@@ -70,6 +76,12 @@ func Simulate(tr Truth, n, t int, rng *rand.Rand) ([]byte, error) {
 	g, err := NewGenerator(J, t, cat, tr.Nu, tr.Tau, at, sig, tr.Psi)
 	if err != nil {
 		return nil, fmt.Errorf("simulate: %v", err)
+	}
+	if tr.MA != nil {
+		g.M = make([]float64, t*J)
+		for s := 2; s < t; s++ {
+			copy(g.M[s*J:(s+1)*J], tr.MA)
+		}
 	}
 	var buf bytes.Buffer
 	wr := csv.NewWriter(&buf)

@@ -22,10 +22,14 @@ type State struct {
 	Mean  []float64   // free mean parameters (Layout.MeanIdx)
 	Nu    []float64   // occasion means, T x J, from Mean
 	A     []float64   // carry-over, T blocks of J x J; block 0 unused
-	SD    [][]float64 // per covariance group: standard deviations
-	R     [][]float64 // per covariance group: correlation matrix
-	Sig   []float64   // Sigma_t, T blocks (block 0: first occasion)
-	Psi   []float64   // random-intercept covariance
+	// M holds the moving-average coefficients M_t (diagonal, T x J):
+	// w_t = A_t w_{t-1} + zeta_t + M_t zeta_{t-1}; zero at t < 2 (the
+	// first occasion is not an innovation) and in models without the term.
+	M   []float64
+	SD  [][]float64 // per covariance group: standard deviations
+	R   [][]float64 // per covariance group: correlation matrix
+	Sig []float64   // Sigma_t, T blocks (block 0: first occasion)
+	Psi []float64   // random-intercept covariance
 
 	// Caches refreshed by Refresh.
 	SigInv []float64 // Sigma_t^{-1}
@@ -72,7 +76,7 @@ func NewState(l *Layout, rng *rand.Rand) *State {
 	s := &State{L: l,
 		Ystar: make([]float64, len(l.Panel.Y)), Y: make([]float64, len(l.Panel.Y)),
 		B: make([]float64, N*J), Tau: make([][]float64, J), Mean: make([]float64, l.NMean),
-		Nu: make([]float64, T*J), A: make([]float64, T*J*J), Sig: make([]float64, T*J*J),
+		Nu: make([]float64, T*J), A: make([]float64, T*J*J), M: make([]float64, T*J), Sig: make([]float64, T*J*J),
 		Psi: make([]float64, J*J), SigInv: make([]float64, T*J*J), LBlk: make([]float64, T*J*J),
 		DMid: make([]float64, T*J*J), LogDet: make([]float64, T), work: make([]float64, 6*J*J+2*J),
 		WQuad: make([]float64, J*J),
@@ -110,7 +114,7 @@ func NewState(l *Layout, rng *rand.Rand) *State {
 		}
 	}
 	s.Mom = newMoments(l)
-	s.quadW, s.quadZ, s.quadPart = shardBufs(l, l.MaxLen*J), shardBufs(l, J), make([]float64, len(l.ShardStart)-1)
+	s.quadW, s.quadZ, s.quadPart = shardBufs(l, l.MaxLen*J), shardBufs(l, max(J, l.MaxLen*J)), make([]float64, len(l.ShardStart)-1)
 	split := false
 	for _, e := range drawOrder(l) {
 		if !split && e.draw >= shardSplit {
@@ -297,6 +301,18 @@ func (s *State) quadShard(ys []float64, sh, lo, hi int) {
 	JJ := J * J
 	w, z := s.quadW[sh], s.quadZ[sh]
 	total := 0.0
+	if l.MA {
+		for i := lo; i < hi; i++ {
+			s.fillW(w, i, ys)
+			Ti := l.Panel.Len[i]
+			s.innovationsInto(z, w, Ti)
+			for t := 0; t < Ti; t++ {
+				total += dense.Quad(s.SigInv[t*JJ:(t+1)*JJ], z[t*J:(t+1)*J], J)
+			}
+		}
+		s.quadPart[sh] = total
+		return
+	}
 	for i := lo; i < hi; i++ {
 		s.fillW(w, i, ys)
 		for t := 0; t < l.Panel.Len[i]; t++ {

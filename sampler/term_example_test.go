@@ -79,7 +79,7 @@ func (b *offsetBlock) Update(st *State, rng *rand.Rand) error {
 // the test and removes it afterwards.
 func withOffsetTerm(t *testing.T) {
 	saved := registry
-	registry = append(slices.Clone(registry), registryEntry{term: offsetTerm{}, draw: 7})
+	registry = append(slices.Clone(registry), registryEntry{term: offsetTerm{}, draw: 8})
 	catalog.Register(catalog.Kind{Name: "offset", Section: catalog.Within, Tabled: true,
 		Label: func(n catalog.Names) string { return n.Outcome + ", offset" }})
 	t.Cleanup(func() { registry = saved })

@@ -90,6 +90,12 @@ func (interceptTerm) Prior(s *State, pr priors.Set, rng *rand.Rand) {
 // with several outcomes the non-centred draw of its scales (interweaving).
 func (interceptTerm) Blocks(l *Layout, opt Options) []Placed {
 	plain := opt.ThresholdUpdate == model.ThresholdAlbertChib
+	if l.MA {
+		// The collapsed, location and interweaving moves rely on the
+		// autoregressive structure; the Gibbs blocks are exact under
+		// ARMA(1,1) as well (movingavg.go).
+		return []Placed{{slotIntercepts, NewInterceptBlock(l)}, {slotPsi, NewPsiBlock(l)}}
+	}
 	var ps []Placed
 	if !plain && l.J == 1 && l.HasPaths() && !l.PathsFree {
 		// One outcome only: measured (docs/performance.md), it raised the

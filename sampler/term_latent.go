@@ -22,6 +22,9 @@ func (latentTerm) Start(*State, *rand.Rand)                  {}
 func (latentTerm) Prior(*State, priors.Set, *rand.Rand)      {}
 
 func (latentTerm) Blocks(l *Layout, opt Options) []Placed {
+	if l.MA {
+		return []Placed{{slotLatent, NewLatentMABlock(l)}}
+	}
 	var ps []Placed
 	if opt.PathMoves && !slices.Contains(l.Cat, false) {
 		// Before the latent block, whose pass leaves State.WQuad for the

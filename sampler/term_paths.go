@@ -132,6 +132,9 @@ func (pathTerm) Prior(s *State, pr priors.Set, rng *rand.Rand) {
 }
 
 func (pathTerm) Blocks(l *Layout, _ Options) []Placed {
+	if l.MA {
+		return nil // the moving-average term's block draws the paths too
+	}
 	return []Placed{{slotPaths, NewPathBlock(l)}}
 }
 

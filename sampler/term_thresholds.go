@@ -103,6 +103,12 @@ func (thresholdTerm) Prior(s *State, pr priors.Set, rng *rand.Rand) {
 func (thresholdTerm) Blocks(l *Layout, opt Options) []Placed {
 	update := opt.ThresholdUpdate
 	plain := update == model.ThresholdAlbertChib
+	if l.MA {
+		// The scale and level moves use the banded autoregressive
+		// structure; under ARMA(1,1) the threshold block's joint move
+		// (on the innovations' exact density) does their work.
+		return []Placed{{slotThresholds, NewThresholdBlock(l, update)}}
+	}
 	var ps []Placed
 	if !plain {
 		ps = append(ps, Placed{slotScale, NewScaleBlock(l)})

@@ -88,12 +88,18 @@ func (transitionTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) [
 				for c := 0; c < J; c++ {
 					cov += a[j*J+c] * ref[c*J+j]
 				}
+				if l.MA { // + M Sigma: Cov(zeta_{t-1}, w_{t-1}) = Sigma
+					cov += s.M[2*J+j] * s.Sig[JJ+j*J+j]
+				}
 				nuPrev, nuCur = s.Nu[j], s.Nu[J+j]
 			} else {
 				prev, a := dw.v[(t-1)*JJ:t*JJ], s.A[t*JJ:(t+1)*JJ]
 				vPrev, vCur = prev[j*J+j], dw.v[t*JJ+j*J+j]
 				for c := 0; c < J; c++ {
 					cov += a[j*J+c] * prev[c*J+j]
+				}
+				if l.MA {
+					cov += s.M[t*J+j] * s.Sig[(t-1)*JJ+j*J+j]
 				}
 				nuPrev, nuCur = s.Nu[(t-1)*J+j], s.Nu[t*J+j]
 			}
