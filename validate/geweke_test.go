@@ -36,15 +36,18 @@ func TestGewekeJointDistribution(t *testing.T) {
 	}
 	const pair = `[{name: mood, type: ordinal, categories: 3, lowest: 0}, {name: ache, type: binary}]`
 	for _, c := range []struct {
-		name, means string
-		opt         sampler.Options
+		name, within, means string
+		opt                 sampler.Options
 	}{
-		{"means equal", eqM, sampler.Options{ThresholdUpdate: model.ThresholdJoint}},
-		{"means free", "over_time: free", sampler.Options{ThresholdUpdate: model.ThresholdJoint}},
+		{"means equal", cross, eqM, sampler.Options{ThresholdUpdate: model.ThresholdJoint}},
+		{"means free", cross, "over_time: free", sampler.Options{ThresholdUpdate: model.ThresholdJoint}},
+		// The ARMA(1,1) blocks (sampler/movingavg.go), with the collapsed
+		// move of the moving averages and paths.
+		{"moving average", cross + ", moving_average: true", "over_time: free", sampler.Options{ThresholdUpdate: model.ThresholdJoint}},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			t.Parallel()
-			geweke(t, Scenario{Name: "geweke", Model: base(pair, ri, cross, c.means), Persons: 8, Times: 4}, c.opt)
+			geweke(t, Scenario{Name: "geweke", Model: base(pair, ri, c.within, c.means), Persons: 8, Times: 4}, c.opt)
 		})
 	}
 }

@@ -48,5 +48,9 @@ func Scenarios() []Scenario {
 		two("no random intercepts", noRI, cross, eqM, 0.05),
 		two("stationary start", ri, "lags: cross, residual_correlation: true, first_occasion: stationary", eqM, 0.05),
 		two("missing cells 25%", ri, cross, eqM, 0.25),
+		two("moving average (ARMA(1,1)), cross-lagged", ri, "lags: cross, residual_correlation: true, moving_average: true", eqM, 0.05),
+		two("moving average, paths free over time", ri, "lags: cross, residual_correlation: true, over_time: free, moving_average: true", eqM, 0.05),
+		two("moving average without carry-over", ri, "lags: none, residual_correlation: true, moving_average: true", eqM, 0.05),
+		{Name: "moving average, continuous, no random intercepts", Model: base("[{name: y, type: continuous}]", noRI, "lags: own, moving_average: true", "over_time: free"), Persons: 40, Times: 6, Missing: 0.05},
 	}
 }
