@@ -1,12 +1,14 @@
 package lagstar_test
 
 import (
+	"context"
 	"os"
 	"path/filepath"
 	"regexp"
 	"strings"
 	"testing"
 
+	"github.com/lagstar/lagstar/fit"
 	"github.com/lagstar/lagstar/model"
 )
 
@@ -53,5 +55,77 @@ func TestREADMEModelFiles(t *testing.T) {
 		if strings.Contains(string(raw), old) {
 			t.Errorf("README still shows the old model-file key %q", strings.TrimSpace(old))
 		}
+	}
+}
+
+// TestREADMEMovingAverageExample runs the README's invented tension-diary
+// example: it simulates the diary from the README's truth file, fits the
+// README's ARMA(1,1) model and the same model without the moving average,
+// and requires the ARMA fit's interval to cover the true coefficient and
+// compare to prefer the ARMA model by more than two standard errors of
+// the elpd difference.
+func TestREADMEMovingAverageExample(t *testing.T) {
+	if testing.Short() {
+		t.Skip("fits skipped in -short mode")
+	}
+	raw, err := os.ReadFile("README.md")
+	if err != nil {
+		t.Fatal(err)
+	}
+	var modelText, truthText string
+	for _, b := range regexp.MustCompile("(?s)```yaml\n(.*?)```").FindAllStringSubmatch(string(raw), -1) {
+		switch {
+		case strings.HasPrefix(b[1], "data:") && strings.Contains(b[1], "moving_average: true"):
+			modelText = b[1]
+		case strings.HasPrefix(b[1], "# truth for the invented tension diary"):
+			truthText = b[1]
+		}
+	}
+	if modelText == "" || truthText == "" {
+		t.Fatal("README: no ARMA(1,1) example model file and truth file")
+	}
+	dir := t.TempDir()
+	write := func(name, text string) string {
+		p := filepath.Join(dir, name)
+		if err := os.WriteFile(p, []byte(text), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	arma := write("tension.yaml", modelText)
+	ar := write("tension-ar.yaml", strings.Replace(modelText, "  moving_average: true\n", "", 1))
+	truth := write("tension-truth.yaml", truthText)
+	if _, err := fit.Simulate(fit.SimulateOptions{ModelPath: arma, TruthPath: truth, Persons: 200, Occasions: 14, Seed: 4,
+		Out: filepath.Join(dir, "tension.csv")}); err != nil {
+		t.Fatal(err)
+	}
+	runs := []string{filepath.Join(dir, "arma"), filepath.Join(dir, "ar")}
+	for k, m := range []string{arma, ar} {
+		out, err := fit.Fit(context.Background(), fit.Options{ModelPath: m, OutDir: runs[k], Chains: 2, Warmup: 500, Draws: 500,
+			FixedLength: true, Seed: 4, SeedSet: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if k == 0 {
+			for _, p := range out.Summary.Parameters {
+				if p.Name == "moving_average[tension]" {
+					lo, hi := float64(p.Lower), float64(p.Upper)
+					t.Logf("moving_average[tension]: mean %.3f, interval [%.3f, %.3f] (truth -0.45)", float64(p.Mean), lo, hi)
+					if !(lo <= -0.45 && -0.45 <= hi) {
+						t.Errorf("moving average interval [%.3f, %.3f] misses the truth -0.45", lo, hi)
+					}
+				}
+			}
+		}
+	}
+	res, err := fit.Compare(fit.CompareOptions{RunDirs: runs, Draws: 100, GHKPoints: 200})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, r := range res {
+		t.Logf("%s: elpd_loo %.1f (se %.1f), difference %.1f (se %.1f)", r.Name, r.ELPDLoo, r.SELoo, r.DiffLoo, r.SEDiff)
+	}
+	if !strings.Contains(res[0].Name, "arma") || res[1].DiffLoo > -2*res[1].SEDiff {
+		t.Errorf("compare does not prefer the ARMA(1,1) model by more than 2 se: %+v", res)
 	}
 }

@@ -165,6 +165,12 @@ func truthFrom(sp *model.Spec, ts *model.TruthSpec, file string, T int) (sampler
 	} else if len(ts.RIVar) > 0 {
 		bad("random_intercepts: the model file has person_differences.random_intercepts: false")
 	}
+	if sp.Within.MovingAverage {
+		tr.MA = make([]float64, J)
+		for j, o := range sp.Outcomes {
+			tr.MA[j] = ts.MovingAvg[o.Name]
+		}
+	}
 	tr.A = make([]float64, J*J)
 	for _, p := range ts.Paths {
 		from, to := idx[p.From], idx[p.To]

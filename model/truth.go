@@ -22,7 +22,10 @@ type TruthSpec struct {
 	InnovCorr  []Pair
 	InitVar    map[string]float64
 	InitCorr   []Pair
-	Missing    float64
+	// MovingAvg holds the moving-average coefficient of each outcome
+	// (moving_averages; the model file needs dynamics.moving_average).
+	MovingAvg map[string]float64
+	Missing   float64
 }
 
 // Pair is a correlation between two outcomes.
@@ -40,7 +43,7 @@ type Path struct {
 }
 
 var truthSchema = map[string][]string{
-	"":                  {"thresholds", "means", "random_intercepts", "paths", "innovations", "first_occasion", "missing"},
+	"":                  {"thresholds", "means", "random_intercepts", "paths", "innovations", "first_occasion", "moving_averages", "missing"},
 	"random_intercepts": {"variances", "correlations"},
 	"innovations":       {"variances", "correlations"},
 	"first_occasion":    {"variances", "correlations"},
@@ -67,7 +70,7 @@ func ReadTruth(path string, sp *Spec) (*TruthSpec, error) {
 	p := &problems{}
 	r := &truthReader{reader: reader{file: path, p: p, schema: truthSchema}, sp: sp}
 	ts := &TruthSpec{Thresholds: map[string][]float64{}, Means: map[string][]float64{}, RIVar: map[string]float64{},
-		InnovVar: map[string]float64{}, InitVar: map[string]float64{}}
+		InnovVar: map[string]float64{}, InitVar: map[string]float64{}, MovingAvg: map[string]float64{}}
 	top := r.mapping(doc.Content[0], "")
 	if v, ok := top["thresholds"]; ok {
 		for name, n := range r.outcomeMap(v, "thresholds") {
@@ -145,6 +148,18 @@ func ReadTruth(path string, sp *Spec) (*TruthSpec, error) {
 			}
 		}
 	}
+	if v, ok := top["moving_averages"]; ok {
+		if !sp.Within.MovingAverage {
+			p.addf(path, v.Line, "moving_averages: the model file has no dynamics.moving_average: true")
+		}
+		for name, x := range r.outcomeMap(v, "moving_averages") {
+			f := r.float(x, "moving_averages."+name)
+			if !(f > -1 && f < 1) {
+				p.addf(path, x.Line, "moving_averages.%s: expected a coefficient between -1 and 1 (invertible), got %q", name, x.Value)
+			}
+			ts.MovingAvg[name] = f
+		}
+	}
 	if v, ok := top["missing"]; ok {
 		ts.Missing = r.float(v, "missing")
 		if !(ts.Missing >= 0 && ts.Missing < 1) {
@@ -169,6 +184,11 @@ func ReadTruth(path string, sp *Spec) (*TruthSpec, error) {
 			}
 		} else if _, ok := ts.InnovVar[o.Name]; !ok {
 			p.addf(path, 0, "innovations.variances: continuous outcome %q needs its innovation variance", o.Name)
+		}
+	}
+	for _, o := range sp.Outcomes {
+		if _, ok := ts.MovingAvg[o.Name]; sp.Within.MovingAverage && !ok {
+			p.addf(path, 0, "moving_averages: outcome %q needs its moving-average coefficient (the model file has dynamics.moving_average: true)", o.Name)
 		}
 	}
 	if err := p.err(); err != nil {

@@ -5,6 +5,7 @@ import (
 	"os"
 	"path/filepath"
 	"runtime"
+	"slices"
 	"strings"
 	"testing"
 	"time"
@@ -32,7 +33,13 @@ func TestSBCTier(t *testing.T) {
 		t.Skip("validation tier: set LAGSTAR_VALIDATE=1")
 	}
 	cfg := Config{Reps: 200, Warmup: 4000, Kept: 49, Thin: 40, Bins: 10, Seed: 20261202, Workers: runtime.GOMAXPROCS(0)}
-	runSBC(t, Scenarios(), cfg, outDir())
+	scenarios := Scenarios()
+	if only := os.Getenv("LAGSTAR_VALIDATE_ONLY"); only != "" {
+		// Scenarios whose names contain the text (to rerun some of the
+		// tier after a change to their blocks).
+		scenarios = slices.DeleteFunc(scenarios, func(s Scenario) bool { return !strings.Contains(s.Name, only) })
+	}
+	runSBC(t, scenarios, cfg, outDir())
 }
 
 // TestSBCCompact is the default-run subset of the tier: the scenarios the
