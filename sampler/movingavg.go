@@ -695,3 +695,39 @@ func (mb *MeanBlock) updateMA(st *State, rng *rand.Rand) error {
 	st.SyncNu()
 	return nil
 }
+
+// accumulateWQuadMA is accumulateWQuad under the ARMA(1,1) within part:
+// outcome j's share of the innovations is the innovation recursion applied
+// to w with every other outcome set to 0 (the recursion is linear), and
+// m[j][k] gains sum_t share_j' Sigma_t^{-1} share_k (lower triangle and
+// diagonal). buf holds (J+1)*MaxLen*J + J values.
+func accumulateWQuadMA(st *State, m, w []float64, Ti int, buf []float64) {
+	J := st.L.J
+	JJ := J * J
+	n := Ti * J
+	u := buf[:n]
+	shares := buf[st.L.MaxLen*J:]
+	sv := buf[(J+1)*st.L.MaxLen*J:]
+	for j := 0; j < J; j++ {
+		for k := range u {
+			u[k] = 0
+		}
+		for t := 0; t < Ti; t++ {
+			u[t*J+j] = w[t*J+j]
+		}
+		st.innovationsInto(shares[j*n:(j+1)*n], u, Ti)
+	}
+	for t := 0; t < Ti; t++ {
+		si := st.SigInv[t*JJ : (t+1)*JJ]
+		for k := 0; k < J; k++ {
+			dense.MulVec(sv[:J], si, shares[k*n+t*J:k*n+(t+1)*J], J, J)
+			for j := k; j < J; j++ {
+				x := 0.0
+				for r := 0; r < J; r++ {
+					x += shares[j*n+t*J+r] * sv[r]
+				}
+				m[j*J+k] += x
+			}
+		}
+	}
+}

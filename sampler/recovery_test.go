@@ -195,7 +195,7 @@ means: {over_time: equal}
 	}
 	for ci, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			csv, err := Simulate(c.tr, c.n, c.periods, newRand(uint64(60+ci)))
+			csv, err := Simulate(c.tr, c.n, c.periods, newRand(uint64(90+ci)))
 			if err != nil {
 				t.Fatal(err)
 			}

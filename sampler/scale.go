@@ -28,6 +28,7 @@ type ScaleBlock struct {
 	tmp     []float64
 	meansOf [][]int
 	d       []float64 // scaled coordinates per outcome
+	ma      []float64 // ARMA(1,1) scratch (accumulateWQuadMA)
 }
 
 // NewScaleBlock allocates the block's workspace.
@@ -81,6 +82,13 @@ func (sb *ScaleBlock) Update(st *State, rng *rand.Rand) error {
 	} else {
 		for i := 0; i < l.N; i++ {
 			st.fillW(sb.w, i, st.Ystar)
+			if l.MA {
+				if sb.ma == nil {
+					sb.ma = make([]float64, (J+1)*l.MaxLen*J+J)
+				}
+				accumulateWQuadMA(st, M, sb.w, l.Panel.Len[i], sb.ma)
+				continue
+			}
 			accumulateWQuad(st, M, sb.w, l.Panel.Len[i], sb.v, sb.sv)
 		}
 	}

@@ -91,10 +91,16 @@ func (interceptTerm) Prior(s *State, pr priors.Set, rng *rand.Rand) {
 func (interceptTerm) Blocks(l *Layout, opt Options) []Placed {
 	plain := opt.ThresholdUpdate == model.ThresholdAlbertChib
 	if l.MA {
-		// The collapsed, location and interweaving moves rely on the
+		// The collapsed and interweaving moves rely on the
 		// autoregressive structure; the Gibbs blocks are exact under
 		// ARMA(1,1) as well (movingavg.go).
-		return []Placed{{slotIntercepts, NewInterceptBlock(l)}, {slotPsi, NewPsiBlock(l)}}
+		ps := []Placed{{slotIntercepts, NewInterceptBlock(l)}, {slotPsi, NewPsiBlock(l)}}
+		if !plain {
+			// The location move leaves w unchanged, so it is exact
+			// whatever the within structure.
+			ps = append(ps, Placed{slotLocation, NewLocationBlock(l)})
+		}
+		return ps
 	}
 	var ps []Placed
 	if !plain && l.J == 1 && l.HasPaths() && !l.PathsFree {

@@ -104,10 +104,15 @@ func (thresholdTerm) Blocks(l *Layout, opt Options) []Placed {
 	update := opt.ThresholdUpdate
 	plain := update == model.ThresholdAlbertChib
 	if l.MA {
-		// The scale and level moves use the banded autoregressive
-		// structure; under ARMA(1,1) the threshold block's joint move
-		// (on the innovations' exact density) does their work.
-		return []Placed{{slotThresholds, NewThresholdBlock(l, update)}}
+		// The scale move reads the within paths' quadratic forms, which
+		// the innovation recursion gives under ARMA(1,1) too
+		// (accumulateWQuadMA); the level move uses the banded
+		// autoregressive structure and is left out.
+		ps := []Placed{{slotThresholds, NewThresholdBlock(l, update)}}
+		if !plain {
+			ps = append(ps, Placed{slotScale, NewScaleBlock(l)})
+		}
+		return ps
 	}
 	var ps []Placed
 	if !plain {
