@@ -259,6 +259,10 @@ func TestIdentifyRules(t *testing.T) {
 		{"dynamics: {lags: own}", three, ""},
 		{"dynamics: {lags: own, over_time: free}", three, "need at least four occasions"},
 		{"dynamics: {lags: own, over_time: free, first_occasion: stationary}", three, "stationary needs dynamics.over_time: equal"},
+		{"dynamics: {lags: own, moving_average: true}", three, "with random intercepts needs at least four occasions (the data have 3)"},
+		{"dynamics: {lags: own, moving_average: true}\nperson_differences: {random_intercepts: false}", three, ""},
+		{"dynamics: {lags: own, moving_average: true}\nperson_differences: {random_intercepts: false}", two, "needs at least three occasions (the data have 2)"},
+		{"dynamics: {lags: own, moving_average: true, first_occasion: stationary}\nperson_differences: {random_intercepts: false}", three, "moving_average: true needs dynamics.first_occasion: free"},
 		{"dynamics: {lags: none}\nperson_differences: {random_intercepts: true}", "p,t,a\n1,1,0\n2,1,1\n", "needs at least two occasions"},
 		// Everyone answered once, at different occasions.
 		{"dynamics: {lags: own}\nperson_differences: {random_intercepts: false}", "p,t,a\n1,1,0\n2,2,1\n3,3,1\n4,1,1\n", "nobody is"},

@@ -191,6 +191,45 @@ func explosive(l *sampler.Layout, es []Entry) []string {
 	return out
 }
 
+// CommonFactorGap is how close (in posterior means) an autoregression and
+// minus its moving average must be for the common-factor warning.
+const CommonFactorGap = 0.15
+
+// commonFactor warns, per outcome (and occasion), when the posterior mean
+// autoregression a and moving average m nearly cancel (|a + m| below
+// CommonFactorGap, with |m| at least 0.2): the ARMA(1,1) then reduces to
+// white noise, a and m lie on a ridge where the data tell them apart
+// poorly (the common-factor case of Box, Jenkins & Reinsel 2008), and a
+// model without either fits about as well.
+func commonFactor(es []Entry) []string {
+	key := func(e Entry) string {
+		k := e.Outcome
+		if e.Occasion != nil {
+			k += fmt.Sprintf(",t=%d", *e.Occasion)
+		}
+		return k
+	}
+	ar := map[string]float64{}
+	for _, e := range es {
+		if e.Kind == "autoregression" {
+			ar[key(e)] = float64(e.Mean)
+		}
+	}
+	var out []string
+	for _, e := range es {
+		if e.Kind != "moving_average" {
+			continue
+		}
+		a, ok := ar[key(e)]
+		m := float64(e.Mean)
+		if !ok || math.Abs(m) < 0.2 || math.Abs(a+m) >= CommonFactorGap {
+			continue
+		}
+		out = append(out, fmt.Sprintf("near the common-factor case for %s: autoregression %.2f and moving average %.2f nearly cancel, so the within part is close to white noise and the two are weakly determined (a ridge in the posterior); compare with the model without dynamics.moving_average (and without carry-over) before reading either", key(e), a, m))
+	}
+	return out
+}
+
 // firstOccasion reports whether entries of the kind rest on the first
 // occasion alone (the first occasion's covariance).
 func firstOccasion(kind string) bool {

@@ -270,6 +270,13 @@ func TestPriorDominatedAndExplosive(t *testing.T) {
 	if w := explosive(l, es); len(w) != 0 {
 		t.Errorf("stable carry-over warned about: %q", w)
 	}
+	// Common factor: autoregression 0.5 against moving average -0.42
+	// warns; a moving average of -0.05 (nothing to cancel) does not.
+	es = append(es, Entry{Name: "moving_average[rested]", Kind: "moving_average", Outcome: "rested", Mean: -0.42},
+		Entry{Name: "moving_average[headache]", Kind: "moving_average", Outcome: "headache", Mean: -0.05})
+	if w := commonFactor(es); len(w) != 1 || !strings.Contains(w[0], "for rested: autoregression 0.50 and moving average -0.42") {
+		t.Errorf("commonFactor = %q, want one warning for rested", w)
+	}
 }
 
 // TestDisplayNamesAndColumns: outcomes' display names label the

@@ -277,6 +277,7 @@ func Build(res *sampler.Result, level float64, version string) *Summary {
 		s.Converged = len(s.Unconverged) == 0
 		add(convergenceWarnings(l, checked))
 		w := append(priorDominated(l, s.Parameters), explosive(l, s.Parameters)...)
+		w = append(w, commonFactor(s.Parameters)...)
 		add(w, w)
 	}
 	for _, n := range l.Panel.Notes {

@@ -155,6 +155,8 @@ func TestBadInput(t *testing.T) {
 			[]string{"nomodel.yaml", "does not exist"}},
 		{"unidentified: stationary with free paths", strings.Replace(goodModel, "lags: cross", "lags: cross\n  over_time: free\n  first_occasion: stationary", 1), data, nil,
 			[]string{"model.yaml", "first_occasion: stationary needs dynamics.over_time: equal"}},
+		{"ARMA with a stationary first occasion", strings.Replace(goodModel, "lags: cross", "lags: cross\n  moving_average: true\n  first_occasion: stationary", 1), data, nil,
+			[]string{"model.yaml", "dynamics.moving_average: true needs dynamics.first_occasion: free"}},
 		{"unidentified: cross-lags with one outcome", strings.Replace(goodModel, "  - name: pain\n    type: binary\n", "", 1), data, nil,
 			[]string{"dynamics.lags: cross needs at least two outcomes"}},
 		{"bad flag value", goodModel, data, []string{"--format", "xml"},
