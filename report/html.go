@@ -77,6 +77,9 @@ img{max-width:100%}.alarm{background:#b00020;color:#fff;padding:.8em 1em;font-we
 	}
 	fmt.Fprintf(&b, "<li>Random intercepts: %v; carry-over: %s; residual correlation: %v; paths over time: %s; first occasion: %s; means over time: %s</li>",
 		m.RandomIntercepts, esc(m.Lags), m.ResidualCorrelation, esc(m.PathsOverTime), esc(m.FirstOccasion), esc(m.MeansOverTime))
+	if m.MovingAverage {
+		b.WriteString("<li>Within parts: ARMA(1,1) (moving average on the previous innovation)</li>")
+	}
 	fmt.Fprintf(&b, "<li>Sampler: %s, %d warm-up, %s, threshold update %s</li>", count(m.Chains, "chain", "chains"), m.Warmup, count(m.Draws, "draw", "draws"), esc(m.ThresholdUpdate))
 	for _, p := range m.Priors {
 		fmt.Fprintf(&b, "<li>Prior: %s</li>", esc(p))

@@ -88,6 +88,8 @@ type ModelInfo struct {
 	PathsOverTime       string        `json:"paths_over_time"`
 	FirstOccasion       string        `json:"first_occasion"`
 	MeansOverTime       string        `json:"means_over_time"`
+	// MovingAverage: ARMA(1,1) within parts (dynamics.moving_average).
+	MovingAverage bool `json:"moving_average,omitempty"`
 	// MeanAnchor gives, per categorical outcome with free means, the
 	// occasion whose mean is fixed at 0 (the others are differences from it).
 	MeanAnchor      map[string]int `json:"mean_anchor,omitempty"`
@@ -242,7 +244,10 @@ func Build(res *sampler.Result, level float64, version string) *Summary {
 		PathsOverTime: pick(l.PathsFree, "free", "equal"), FirstOccasion: pick(sp.Within.StationaryStart, "stationary", "free"),
 		MeansOverTime: pick(l.MeansFree, "free", "equal"), Priors: l.Priors.Describe(l.J),
 		Chains: res.Options.Chains, Warmup: res.Options.Warmup, Draws: res.Options.Draws,
-		ThresholdUpdate: string(res.Options.ThresholdUpdate), Notes: append(slices.Clip(l.Panel.Notes), l.Notes...)}
+		ThresholdUpdate: string(res.Options.ThresholdUpdate), Notes: append(slices.Clip(l.Panel.Notes), l.Notes...), MovingAverage: l.MA}
+	if l.MA {
+		mi.Priors = append(slices.Clip(mi.Priors), fmt.Sprintf("moving averages: normal(0, %g^2) truncated to (-1, 1)", l.Priors.PathSD))
+	}
 	for j, o := range l.Panel.Outcomes {
 		mi.Outcomes = append(mi.Outcomes, outcomeInfo(l, j))
 		if t := l.Anchor[j]; t >= 0 {
