@@ -123,3 +123,50 @@ func BenchmarkCheckpoint(b *testing.B) {
 		})
 	}
 }
+
+// BenchmarkSweepMovingAverage times one full sweep of the same panels
+// fitted as AR(1) and as ARMA(1,1) (docs/performance.md, "ARMA(1,1)"): an
+// ordinal diary (300 persons x 14 occasions) and a two-binary panel (1,200
+// x 5), both with random intercepts.
+func BenchmarkSweepMovingAverage(b *testing.B) {
+	cases := []struct {
+		name, outcomes string
+		tr             Truth
+		n, t           int
+	}{
+		{"ordinal", "[{name: y, type: ordinal, categories: 5, lowest: 0}]",
+			Truth{Names: []string{"y"}, Types: []model.OutcomeType{model.Ordinal}, Tau: [][]float64{{-1, -0.3, 0.4, 1.1}},
+				Psi: []float64{0.5}, A: []float64{0.6}, MA: []float64{-0.4}, Sigma: []float64{1}, Sigma1: []float64{1}, Missing: 0.05}, 300, 14},
+		{"binary pair", "[{name: a, type: binary}, {name: b, type: binary}]",
+			Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Binary, model.Binary}, Tau: [][]float64{{0.3}, {-0.2}},
+				Psi: []float64{0.6, 0.2, 0.2, 0.5}, A: []float64{0.4, 0.1, 0.1, 0.3}, MA: []float64{-0.3, -0.2},
+				Sigma: []float64{1, 0.2, 0.2, 1}, Sigma1: []float64{1, 0.2, 0.2, 1}, Missing: 0.05}, 1200, 5},
+	}
+	for _, c := range cases {
+		csv, err := Simulate(c.tr, c.n, c.t, newRand(3))
+		if err != nil {
+			b.Fatal(err)
+		}
+		lags := "own"
+		if len(c.tr.Names) > 1 {
+			lags = "cross"
+		}
+		for _, ma := range []bool{false, true} {
+			b.Run(fmt.Sprintf("%s/moving_average=%v", c.name, ma), func(b *testing.B) {
+				l := layoutFrom(b, fmt.Sprintf("data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: %s\ndynamics: {lags: %s, moving_average: %v}\nmeans: {over_time: equal}\n", c.outcomes, lags, ma), csv)
+				rng := newRand(2)
+				st := NewState(l, rng)
+				blocks := Blocks(l, model.ThresholdJoint)
+				for range 20 {
+					Sweep(st, blocks, rng)
+				}
+				b.ReportAllocs()
+				for b.Loop() {
+					if err := Sweep(st, blocks, rng); err != nil {
+						b.Fatal(err)
+					}
+				}
+			})
+		}
+	}
+}

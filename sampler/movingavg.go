@@ -330,6 +330,7 @@ type MAPathBlock struct {
 	free          []int
 	prec, h       []float64
 	w, z, rho, x  []float64
+	su            []float64
 	coefs         [][]int // per coefficient: its occasions; outcome in coefOf
 	coefOf        []int
 	logStep       []float64
@@ -338,8 +339,8 @@ type MAPathBlock struct {
 
 // NewMAPathBlock allocates the block's workspace.
 func NewMAPathBlock(l *Layout) *MAPathBlock {
-	J, T := l.J, l.T
-	b := &MAPathBlock{w: make([]float64, l.MaxLen*J), z: make([]float64, l.MaxLen*J), rho: make([]float64, 2*J)}
+	J := l.J
+	b := &MAPathBlock{w: make([]float64, l.MaxLen*J), z: make([]float64, l.MaxLen*J), rho: make([]float64, 2*J), su: make([]float64, J)}
 	for k, f := range l.PathFree {
 		if f && l.HasPaths() {
 			b.free = append(b.free, k)
@@ -353,7 +354,6 @@ func NewMAPathBlock(l *Layout) *MAPathBlock {
 			b.coefOf = append(b.coefOf, j)
 		}
 	}
-	_ = T
 	b.logStep = make([]float64, len(b.coefs))
 	for k := range b.logStep {
 		b.logStep[k] = math.Log(0.1)
@@ -488,7 +488,7 @@ func (b *MAPathBlock) stats(st *State, g []int) float64 {
 	w := b.w
 	rp, rc := b.rho[:J], b.rho[J:]
 	xp, xc := b.x[:n], b.x[n:]
-	su := make([]float64, J)
+	su := b.su
 	for i := 0; i < l.N; i++ {
 		st.fillW(w, i, st.Ystar)
 		Ti := l.Panel.Len[i]
