@@ -3,6 +3,7 @@ package sampler
 import (
 	"fmt"
 	"math"
+	"strings"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -425,4 +426,54 @@ func nelderMead(f func([]float64) float64, x0 []float64, step float64, iters int
 		step /= 10
 	}
 	return best
+}
+
+// TestWithinAutocorrelations: the derived lag-1..3 autocorrelations of an
+// ARMA(1,1) (two outcomes, cross-lags) equal the correlations far out in
+// a long panel under the independently built covariance B D B' (armaMap),
+// where the process has forgotten its start, to 1e-8.
+func TestWithinAutocorrelations(t *testing.T) {
+	const T = 80
+	csv, err := Simulate(Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Continuous, model.Continuous},
+		Tau: [][]float64{nil, nil}, Sigma: []float64{1, 0, 0, 1}, Sigma1: []float64{1, 0, 0, 1}}, 2, T, newRand(1))
+	if err != nil {
+		t.Fatal(err)
+	}
+	l := layoutFrom(t, strings.Replace(armaPairYAML, "over_time: free", "over_time: equal", 1), csv)
+	s := NewState(l, newRand(2))
+	J := l.J
+	JJ := J * J
+	a := []float64{0.5, 0.2, -0.1, 0.3}
+	for u := 1; u < T; u++ {
+		copy(s.A[u*JJ:(u+1)*JJ], a)
+	}
+	for u := 2; u < T; u++ {
+		s.M[u*J], s.M[u*J+1] = -0.4, 0.35
+	}
+	for g := range s.SD {
+		s.SD[g][0], s.SD[g][1] = 1.2, 0.8
+		s.R[g][1], s.R[g][2] = 0.3, 0.3
+	}
+	if err := s.Refresh(); err != nil {
+		t.Fatal(err)
+	}
+	names := map[string]int{}
+	for k, p := range l.DerivedParams() {
+		names[p.Name] = k
+	}
+	got := s.ExtractDerived(nil, NewDerivedWork(l))
+	cov := armaCov(s)
+	last := T - 1
+	for j, o := range []string{"a", "b"} {
+		for k := 1; k <= 3; k++ {
+			want := cov.At(last*J+j, (last-k)*J+j) / math.Sqrt(cov.At(last*J+j, last*J+j)*cov.At((last-k)*J+j, (last-k)*J+j))
+			idx, ok := names[fmt.Sprintf("within_autocorrelation[%s,lag=%d]", o, k)]
+			if !ok {
+				t.Fatalf("no derived autocorrelation for %s at lag %d", o, k)
+			}
+			if math.Abs(got[idx]-want) > 1e-8 {
+				t.Errorf("within_autocorrelation[%s,lag=%d] = %.10f, far-out correlation %.10f", o, k, got[idx], want)
+			}
+		}
+	}
 }

@@ -17,7 +17,7 @@ var registry = []registryEntry{
 	{term: meanTerm{}, draw: 2},
 	{term: interceptTerm{}, draw: 6, derived: 2},
 	{term: pathTerm{}, draw: 3, derived: 1},
-	{term: movingAverageTerm{}, draw: 7},
+	{term: movingAverageTerm{}, draw: 7, derived: 5},
 	{term: innovationTerm{}, draw: 4},
 	{term: firstOccasionTerm{}, draw: 5},
 	{term: transitionTerm{}, derived: 4},
