@@ -61,7 +61,10 @@ type chainCheckpoint struct {
 	// gob encodes floats one by one, which made a checkpoint of a diary
 	// panel cost tens of sweeps.
 	Ystar, B, Mean, Nu, A, Sig, Psi []byte
-	Tau, SD, R                      [][]float64
+	// M holds the moving-average coefficients (State.M); absent (nil) in
+	// checkpoints of models without them, which then stay at 0.
+	M          []byte
+	Tau, SD, R [][]float64
 	// Own holds each active term's per-term values (State.Own), in
 	// Layout.Terms order; empty in checkpoints of layouts without any.
 	Own [][]float64
@@ -123,6 +126,9 @@ func (r *Runner) checkpoint(c int) ([]byte, error) {
 		Ystar: packFloats(st.Ystar), B: packFloats(st.B), Mean: packFloats(st.Mean), Nu: packFloats(st.Nu), A: packFloats(st.A),
 		Sig: packFloats(st.Sig), Psi: packFloats(st.Psi), Tau: st.Tau, SD: st.SD, R: st.R, Own: st.own,
 		Draws: packFloats(r.res.Draws[c]), Derived: packFloats(r.res.DerivedDraws[c])}
+	if st.L.MA {
+		cp.M = packFloats(st.M)
+	}
 	var err error
 	if cp.Rng, err = ch.src.MarshalBinary(); err != nil {
 		return nil, err
@@ -193,6 +199,10 @@ func (r *Runner) restore(c int, data []byte) (target int, err error) {
 		vec[k] = x
 	}
 	ystar, bb, mean, nu, a, sig, psi, draws, derived := vec[0], vec[1], vec[2], vec[3], vec[4], vec[5], vec[6], vec[7], vec[8]
+	ma, ok := unpackFloats(cp.M)
+	if !ok || (st.L.MA && len(ma) != len(st.M)) || (!st.L.MA && len(ma) != 0) {
+		return bad("its moving-average coefficients do not fit the model")
+	}
 	kept := max(cp.Sweeps-r.opt.Warmup, 0)
 	if cp.Sweeps < 0 || cp.Kept != kept || cp.Target < kept || len(draws) != kept*np || len(derived) != kept*nd {
 		return bad("its sweep and draw counts disagree")
@@ -259,6 +269,7 @@ func (r *Runner) restore(c int, data []byte) (target int, err error) {
 	copy(st.A, a)
 	copy(st.Sig, sig)
 	copy(st.Psi, psi)
+	copy(st.M, ma)
 	for j := range cp.Tau {
 		copy(st.Tau[j], cp.Tau[j])
 	}
