@@ -103,6 +103,9 @@ func Identify(sp *Spec, pan *Panel) error {
 // only), and a panel of three occasions has lags 1 and 2 alone.
 func identifyMovingAverage(p *problems, sp *Spec, T int) {
 	f := sp.Path
+	if sp.Sampler.PathMoves {
+		p.addf(f, 0, "sampler.path_moves: true is not available with dynamics.moving_average: true: the whole-path move uses the banded precision of autoregressive within parts; leave path_moves out")
+	}
 	switch {
 	case sp.Within.StationaryStart:
 		p.addf(f, 0, "dynamics.moving_average: true needs dynamics.first_occasion: free; a stationary first occasion for ARMA(1,1) residuals is not available")

@@ -263,6 +263,7 @@ func TestIdentifyRules(t *testing.T) {
 		{"dynamics: {lags: own, moving_average: true}\nperson_differences: {random_intercepts: false}", three, ""},
 		{"dynamics: {lags: own, moving_average: true}\nperson_differences: {random_intercepts: false}", two, "needs at least three occasions (the data have 2)"},
 		{"dynamics: {lags: own, moving_average: true, first_occasion: stationary}\nperson_differences: {random_intercepts: false}", three, "moving_average: true needs dynamics.first_occasion: free"},
+		{"dynamics: {lags: own, moving_average: true}\nperson_differences: {random_intercepts: false}\nsampler: {path_moves: true}", three, "path_moves: true is not available with dynamics.moving_average"},
 		{"dynamics: {lags: none}\nperson_differences: {random_intercepts: true}", "p,t,a\n1,1,0\n2,1,1\n", "needs at least two occasions"},
 		// Everyone answered once, at different occasions.
 		{"dynamics: {lags: own}\nperson_differences: {random_intercepts: false}", "p,t,a\n1,1,0\n2,2,1\n3,3,1\n4,1,1\n", "nobody is"},
