@@ -51,6 +51,11 @@ func fitMemory(l *sampler.Layout, chains, draws int) float64 {
 	np, nd := len(l.Params()), len(l.DerivedParams())
 	cells := len(l.Panel.Y)
 	perChain := mul(draws, np+nd, 8) + mul(cells, 8, 4) + mul(l.N, l.J, 8, 4) + mul(l.MaxLen, l.J, l.J, 8, 64)
+	if l.MA {
+		// The ARMA latent block keeps, per start occasion, how a change
+		// moves every later innovation: about T^2 J^2 values, twice.
+		perChain += mul(l.T, l.T, l.J, l.J, 8)
+	}
 	checkpoint := mul(draws, np+nd, 8) + mul(cells, 8)
 	return mul(chains)*perChain + checkpoint + mul(len(l.Panel.Raw), 2)
 }

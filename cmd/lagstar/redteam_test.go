@@ -48,6 +48,17 @@ func TestHostileInputs(t *testing.T) {
 	huge := write("huge.csv", "id,wave,mood,pain\npa,1,1,-1.797e308\npa,2,2,1\npb,1,1,1\npb,2,3,0\n")
 	hugeModel := write("huge.yaml", strings.Replace(goodModel, "type: binary", "type: continuous", 1))
 	notFile := write("plain.txt", "not a folder")
+	// Two persons over 8,000 occasions with ARMA(1,1) within parts: the
+	// moving-average latent block's tables grow with the square of the
+	// occasions (about 0.5 GB here, the rest of a 10-draw run a few MB),
+	// which the memory estimate must count.
+	var longDiary strings.Builder
+	longDiary.WriteString("id,wave,pain\n")
+	for w := 1; w <= 8000; w++ {
+		fmt.Fprintf(&longDiary, "pa,%d,%d\npb,%d,%d\n", w, w%2, w, (w/3)%2)
+	}
+	write("long.csv", longDiary.String())
+	longMA := write("long.yaml", "data: {csv: long.csv, person: id, occasion: wave}\noutcomes: [{name: pain, type: binary}]\ndynamics: {lags: own, moving_average: true}\n")
 
 	cases := []struct {
 		name string
@@ -62,6 +73,7 @@ func TestHostileInputs(t *testing.T) {
 		{"huge warm-up", []string{"fit", mp, "--warmup", "99999999999"}, 2, []string{"--warmup"}},
 		{"memory estimate over the cap", []string{"fit", mp, "--until-converged", "--max-draws", "10000000", "--max-memory", "50MB"}, 2, []string{"would need about", "--max-memory", "--max-draws"}},
 		{"in-range sizes beyond this machine's memory", []string{"fit", mp, "--chains", "64", "--draws", "10000000"}, 2, []string{"would need about", "80% of this machine's"}},
+		{"ARMA diary whose tables would exhaust memory", []string{"fit", longMA, "--fixed-length", "--chains", "1", "--draws", "10", "--max-memory", "300MB"}, 2, []string{"would need about", "--max-memory"}},
 		{"memory cap not a size", []string{"fit", mp, "--max-memory", "lots"}, 2, []string{"--max-memory"}},
 		{"1000 categories", []string{"fit", write("cats.yaml", strings.Replace(goodModel, "categories: 3", "categories: 1000", 1))}, 2, []string{"categories: expected a whole number from 2 to 11"}},
 		{"10 MB cell", []string{"fit", mp, "--data", bigCell}, 2, []string{"bigcell.csv:2", "at most 65536"}},
