@@ -121,25 +121,32 @@ means: {over_time: equal}
 			}
 			l := layoutFrom(t, c.yaml, csv)
 			res := runFit(t, l, 2, 600, 600, uint64(7+ci))
-			s := summarize(res)
 			truth := truthValues(c.tr, l)
-			covered := 0
-			for _, p := range res.Params {
-				want, ok := truth[p.Name]
-				if !ok {
-					t.Fatalf("no true value for %s", p.Name)
-				}
-				got := s[p.Name]
-				in := got.lo <= want && want <= got.hi
-				if in {
-					covered++
-				}
-				t.Logf("%-36s true %8.3f  mean %8.3f  95%% [%8.3f, %8.3f] %v", p.Name, want, got.mean, got.lo, got.hi, in)
-			}
-			if frac := float64(covered) / float64(len(res.Params)); frac < 0.9 {
-				t.Errorf("95%% intervals cover %d of %d true values (%.0f%%), want at least 90%%", covered, len(res.Params), 100*frac)
-			}
+			requireCoverage(t, res, truth)
 		})
+	}
+}
+
+// requireCoverage logs every parameter against its true value and
+// requires the 95% intervals to cover at least 90% of them.
+func requireCoverage(t *testing.T, res *Result, truth map[string]float64) {
+	t.Helper()
+	s := summarize(res)
+	covered := 0
+	for _, p := range res.Params {
+		want, ok := truth[p.Name]
+		if !ok {
+			t.Fatalf("no true value for %s", p.Name)
+		}
+		got := s[p.Name]
+		in := got.lo <= want && want <= got.hi
+		if in {
+			covered++
+		}
+		t.Logf("%-36s true %8.3f  mean %8.3f  95%% [%8.3f, %8.3f] %v", p.Name, want, got.mean, got.lo, got.hi, in)
+	}
+	if frac := float64(covered) / float64(len(res.Params)); frac < 0.9 {
+		t.Errorf("95%% intervals cover %d of %d true values (%.0f%%), want at least 90%%", covered, len(res.Params), 100*frac)
 	}
 }
 
@@ -201,27 +208,11 @@ means: {over_time: equal}
 			}
 			l := layoutFrom(t, c.yaml, csv)
 			res := runFit(t, l, 2, 600, 600, uint64(17+ci))
-			s := summarize(res)
 			truth := truthValues(c.tr, l)
 			for j, m := range c.tr.MA {
 				truth[fmt.Sprintf("moving_average[%s]", c.tr.Names[j])] = m
 			}
-			covered := 0
-			for _, p := range res.Params {
-				want, ok := truth[p.Name]
-				if !ok {
-					t.Fatalf("no true value for %s", p.Name)
-				}
-				got := s[p.Name]
-				in := got.lo <= want && want <= got.hi
-				if in {
-					covered++
-				}
-				t.Logf("%-36s true %8.3f  mean %8.3f  95%% [%8.3f, %8.3f] %v", p.Name, want, got.mean, got.lo, got.hi, in)
-			}
-			if frac := float64(covered) / float64(len(res.Params)); frac < 0.9 {
-				t.Errorf("95%% intervals cover %d of %d true values (%.0f%%), want at least 90%%", covered, len(res.Params), 100*frac)
-			}
+			requireCoverage(t, res, truth)
 		})
 	}
 }
