@@ -267,6 +267,26 @@ func TestSimulateThenFit(t *testing.T) {
 	if code != 2 || !strings.Contains(stderr, `"pian" is not an outcome`) {
 		t.Errorf("bad truth file: exit %d, stderr %s", code, stderr)
 	}
+	// Moving averages in truth files: refused without the model key, out
+	// of (-1, 1), or missing for an outcome.
+	maModel := filepath.Join(dir, "ma.yaml")
+	modelRaw, _ := os.ReadFile(mp)
+	os.WriteFile(maModel, []byte(strings.Replace(string(modelRaw), "lags: cross", "lags: cross\n  moving_average: true", 1)), 0o644)
+	for _, c := range []struct{ model, extra, want string }{
+		{mp, "moving_averages: {mood: 0.2, pain: 0.1}\n", "the model file has no dynamics.moving_average: true"},
+		{maModel, "moving_averages: {mood: 1.2, pain: 0.1}\n", "moving_averages.mood: expected a coefficient between -1 and 1"},
+		{maModel, "moving_averages: {mood: 0.2}\n", `outcome "pain" needs its moving-average coefficient`},
+	} {
+		os.WriteFile(truth, []byte(truthText+c.extra), 0o644)
+		code, _, stderr = runCLI("simulate", c.model, "--truth", truth, "--out", filepath.Join(dir, "x.csv"))
+		if code != 2 || !strings.Contains(stderr, c.want) || !strings.Contains(stderr, "truth.yaml") {
+			t.Errorf("truth file with %q: exit %d, stderr %s; want exit 2 naming truth.yaml and %q", c.extra, code, stderr, c.want)
+		}
+	}
+	os.WriteFile(truth, []byte(truthText+"moving_averages: {mood: -0.3, pain: 0.2}\n"), 0o644)
+	if code, _, stderr = runCLI("simulate", maModel, "--truth", truth, "--persons", "20", "--occasions", "5", "--out", filepath.Join(dir, "ma.csv")); code != 0 {
+		t.Errorf("simulate with moving averages: exit %d: %s", code, stderr)
+	}
 }
 
 func TestReportTable(t *testing.T) {
