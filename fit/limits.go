@@ -53,7 +53,8 @@ func fitMemory(l *sampler.Layout, chains, draws int) float64 {
 	perChain := mul(draws, np+nd, 8) + mul(cells, 8, 4) + mul(l.N, l.J, 8, 4) + mul(l.MaxLen, l.J, l.J, 8, 64)
 	if l.MA {
 		// The ARMA latent block keeps, per start occasion, how a change
-		// moves every later innovation: about T^2 J^2 values, twice.
+		// moves every later innovation, and Sigma^{-1} times it: two
+		// triangles of about T^2 J^2 / 2 values each.
 		perChain += mul(l.T, l.T, l.J, l.J, 8)
 	}
 	checkpoint := mul(draws, np+nd, 8) + mul(cells, 8)

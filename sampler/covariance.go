@@ -37,6 +37,9 @@ func NewCovBlock(l *Layout) *CovBlock {
 	cb := &CovBlock{n: make([]float64, len(l.Groups)), s00: make([]float64, J*J),
 		sig:  make([]float64, J*J),
 		work: make([]float64, 8*J*J+2*J), rounds: 3}
+	if l.MA {
+		cb.w, cb.z = make([]float64, l.MaxLen*J), make([]float64, l.MaxLen*J)
+	}
 	for range l.Groups {
 		cb.stats = append(cb.stats, make([]float64, J*J))
 		ls := make([]float64, J+J*J)
@@ -68,9 +71,6 @@ func (cb *CovBlock) Update(st *State, rng *rand.Rand) error {
 			if g := l.GroupOf[t]; g >= 0 {
 				cb.n[g] += float64(l.CountAt[t])
 			}
-		}
-		if cb.w == nil {
-			cb.w, cb.z = make([]float64, l.MaxLen*J), make([]float64, l.MaxLen*J)
 		}
 		st.innovationSums(cb.stats, cb.w, cb.z)
 		for g, grp := range l.Groups {

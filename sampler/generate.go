@@ -37,7 +37,7 @@ type Generator struct {
 func NewGenerator(J, T int, cat []bool, nu []float64, tau [][]float64, a, sig, psi []float64) (*Generator, error) {
 	JJ := J * J
 	g := &Generator{J: J, T: T, Cat: cat, Nu: nu, Tau: tau, A: a, sigChol: make([]float64, T*JJ),
-		z: make([]float64, J), cur: make([]float64, J), prev: make([]float64, J)}
+		z: make([]float64, J), cur: make([]float64, J), prev: make([]float64, J), zeta: make([]float64, J), zetaPrev: make([]float64, J)}
 	copy(g.sigChol, sig[:T*JJ])
 	for t := 0; t < T; t++ {
 		if !dense.Cholesky(g.sigChol[t*JJ:(t+1)*JJ], J) {
@@ -91,9 +91,6 @@ func (g *Generator) Person(n int, rng *rand.Rand, b []float64, cell func(t, j in
 	for t := 0; t < n; t++ {
 		g.draw(cur, g.sigChol[t*JJ:(t+1)*JJ], rng)
 		if g.M != nil {
-			if g.zeta == nil {
-				g.zeta, g.zetaPrev = make([]float64, J), make([]float64, J)
-			}
 			copy(g.zeta, cur)
 			if t > 0 {
 				for r := 0; r < J; r++ {

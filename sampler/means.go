@@ -31,9 +31,15 @@ type MeanBlock struct {
 // NewMeanBlock allocates the block's workspace.
 func NewMeanBlock(l *Layout) *MeanBlock {
 	J, T, p := l.J, l.T, l.NMean
-	return &MeanBlock{p: p, prec: make([]float64, p*p), h: make([]float64, p), first: make([]int, p),
+	mb := &MeanBlock{p: p, prec: make([]float64, p*p), h: make([]float64, p), first: make([]int, p),
 		sumE: make([]float64, T*J), sumF: make([]float64, T*J), cols: make([]int, 0, 2*J),
 		colv: make([]float64, 2*J*J), r: make([]float64, J), tmp: make([]float64, J)}
+	if l.MA {
+		mb.maE, mb.maR = make([]float64, l.MaxLen*J), make([]float64, l.MaxLen*J)
+		mb.maZ, mb.maZp, mb.maSZ = make([]float64, J*p), make([]float64, J*p), make([]float64, J*p)
+		mb.maSum = make([]float64, T*J)
+	}
+	return mb
 }
 
 // Name implements Block.

@@ -599,11 +599,6 @@ func (mb *MeanBlock) updateMA(st *State, rng *rand.Rand) error {
 	l := st.L
 	J, T, p := l.J, l.T, mb.p
 	JJ := J * J
-	if mb.maE == nil {
-		mb.maE, mb.maR = make([]float64, l.MaxLen*J), make([]float64, l.MaxLen*J)
-		mb.maZ, mb.maZp, mb.maSZ = make([]float64, J*p), make([]float64, J*p), make([]float64, J*p)
-		mb.maSum = make([]float64, T*J)
-	}
 	for k := range mb.maSum {
 		mb.maSum[k] = 0
 	}

@@ -12,6 +12,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/lagstar/lagstar/diagnostics"
+	"github.com/lagstar/lagstar/internal/dense"
 	"github.com/lagstar/lagstar/model"
 )
 
@@ -145,7 +146,7 @@ func TestInnovationDensityIsExact(t *testing.T) {
 		s.innovationsInto(z, w, T)
 		got := 0.0
 		for u := 0; u < T; u++ {
-			got += -0.5*dense2Quad(s.SigInv[u*JJ:(u+1)*JJ], z[u*J:(u+1)*J], J) - 0.5*s.LogDet[u] - 0.5*float64(J)*math.Log(2*math.Pi)
+			got += -0.5*dense.Quad(s.SigInv[u*JJ:(u+1)*JJ], z[u*J:(u+1)*J], J) - 0.5*s.LogDet[u] - 0.5*float64(J)*math.Log(2*math.Pi)
 		}
 		if want := normal.LogProb(w); math.Abs(got-want) > 1e-9 {
 			t.Fatalf("innovation log density %.12f, multivariate normal %.12f", got, want)
@@ -179,16 +180,6 @@ func (m *mvn) LogProb(x []float64) float64 {
 		return math.Inf(-1)
 	}
 	return m.c - 0.5*mat.Dot(d, &sol)
-}
-
-func dense2Quad(a, x []float64, n int) float64 {
-	q := 0.0
-	for i := 0; i < n; i++ {
-		for k := 0; k < n; k++ {
-			q += x[i] * a[i*n+k] * x[k]
-		}
-	}
-	return q
 }
 
 // TestMovingAverageZeroEqualsAR fits the same ordinal panel (simulated

@@ -36,6 +36,9 @@ func NewScaleBlock(l *Layout) *ScaleBlock {
 	sb := &ScaleBlock{m: make([]float64, l.J*l.J), r: make([]float64, l.J*l.J), v: make([]float64, l.J*l.J), sv: make([]float64, l.J*l.J),
 		w: make([]float64, l.MaxLen*l.J), psiIn: make([]float64, l.J*l.J), tmp: make([]float64, l.J*l.J+l.J),
 		meansOf: NewLocationBlock(l).meansOf, d: make([]float64, l.J)}
+	if l.MA {
+		sb.ma = make([]float64, (l.J+1)*l.MaxLen*l.J+l.J)
+	}
 	J := l.J
 	for j := 0; j < J; j++ {
 		if !l.Cat[j] {
@@ -83,9 +86,6 @@ func (sb *ScaleBlock) Update(st *State, rng *rand.Rand) error {
 		for i := 0; i < l.N; i++ {
 			st.fillW(sb.w, i, st.Ystar)
 			if l.MA {
-				if sb.ma == nil {
-					sb.ma = make([]float64, (J+1)*l.MaxLen*J+J)
-				}
 				accumulateWQuadMA(st, M, sb.w, l.Panel.Len[i], sb.ma)
 				continue
 			}

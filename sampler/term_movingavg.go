@@ -58,7 +58,8 @@ func (movingAverageTerm) Inject(s *State, v []float64) []float64 {
 	return v
 }
 
-// set draws each coefficient with draw and writes it to its occasions.
+// setMovingAverages draws each coefficient with draw and writes it to its
+// occasions.
 func setMovingAverages(s *State, draw func() float64) {
 	J := s.L.J
 	for _, occ := range maOccasions(s.L) {
