@@ -16,7 +16,9 @@ import (
 // LogLik returns the person-level log likelihoods log p(y_i | theta) for
 // every draw (rows) and person (columns), with the random intercepts and
 // within paths integrated out: y*_i is normal with mean nu and covariance
-// Psi on every pair of occasions plus the VAR(1) covariance of w, and y_i
+// Psi on every pair of occasions (under growth the mean and covariance of
+// the growth line, State.CellMean and State.BetweenCov) plus the VAR(1)
+// covariance of w, and y_i
 // is the event that each observed y* lies in its category's interval, a
 // rectangle probability estimated by GHK with R randomized quasi-random
 // points (RandomizedPoints: ten shifted Halton sets padded with random
@@ -162,13 +164,11 @@ func (pw *personWork) person(st *sampler.State, i int, u Points) (float64, float
 			tr, ar := cr/J, cr%J
 			// Occasions: tr <= tp since cells are in (t, j) order.
 			c := pw.blocks[(tr*l.T+tp)*JJ+ap*J+ar]
-			if l.RI {
-				c += st.Psi[ap*J+ar]
-			}
+			c += st.BetweenCov(tp, ap, tr, ar)
 			pw.cov[p*n+r], pw.cov[r*n+p] = c, c
 		}
 		j := cp % J
-		pw.mu[p] = st.Nu[cp]
+		pw.mu[p] = st.CellMean(tp, j)
 		pw.lo[p], pw.hi[p] = math.Inf(-1), math.Inf(1)
 		if !l.Cat[j] {
 			continue

@@ -58,6 +58,9 @@ func Identify(sp *Spec, pan *Panel) error {
 	if sp.Within.MovingAverage {
 		identifyMovingAverage(p, sp, T)
 	}
+	if sp.Between.RandomSlopes {
+		identifyGrowth(p, sp, pan)
+	}
 	if sp.Within.Lags == LagsCross && J < 2 {
 		p.addf(f, 0, "dynamics.lags: cross needs at least two outcomes (there is %d); use lags: own for one outcome", J)
 	}
@@ -114,6 +117,72 @@ func identifyMovingAverage(p *problems, sp *Spec, T int) {
 	case T < 3:
 		p.addf(f, 0, "dynamics.moving_average: true needs at least three occasions (the data have %d): the first occasion is exogenous, so the moving average first acts at the third", T)
 	}
+}
+
+// identifyGrowth checks what a random slope over time scores needs. The
+// between part then has three covariance parameters per outcome
+// (intercept and slope variances, their covariance) on top of the within
+// part's, and the data give T(T+1)/2 variances and covariances per outcome
+// (T(T-1)/2 correlations for a binary one, whose variances are fixed):
+//
+//   - without carry-over, three occasions (a line needs two, its spread
+//     around the line a third);
+//   - with carry-over equal over time, four: with three occasions a
+//     binary outcome gives three correlations for four parameters, and a
+//     continuous one is only just determined;
+//   - with carry-over free over time, five.
+//
+// The time scores must match the occasions and differ somewhere, and the
+// moving-average and whole-path moves are not available with it.
+func identifyGrowth(p *problems, sp *Spec, pan *Panel) {
+	f := sp.Path
+	T := pan.T()
+	b := sp.Between
+	const key = "person_differences.random_slopes"
+	switch {
+	case sp.Within.MovingAverage:
+		p.addf(f, 0, "%s: true is not available with dynamics.moving_average: true; growth takes autoregressive (and cross-lagged) residuals. Leave one of them out", key)
+	case sp.Sampler.PathMoves:
+		p.addf(f, 0, "sampler.path_moves: true is not available with %s: true; leave path_moves out", key)
+	}
+	need, why := 3, "a line needs two occasions and the spread around it a third"
+	if sp.Within.Lags != LagsNone {
+		need, why = 4, "the intercept and slope variances, their covariance and the carry-over need the variances and covariances of four occasions (with three a binary outcome gives three correlations for four parameters)"
+		if sp.Within.PathsFree {
+			need, why = 5, "carry-over free over time adds a path per occasion"
+		}
+	}
+	if T < need {
+		p.addf(f, 0, "%s: true with dynamics.lags: %s needs at least %d occasions (the data have %d): %s", key, sp.Within.Lags, need, T, why)
+	}
+	if b.TimeScores == TimeGiven {
+		if len(b.Scores) != T {
+			p.addf(f, b.TimeLine, "person_differences.time_scores: %d scores given for %d occasions (%s); give one per occasion, in occasion order", len(b.Scores), T, clip(intTexts(pan.Occasions), 8))
+		} else if slices.Min(b.Scores) == slices.Max(b.Scores) {
+			p.addf(f, b.TimeLine, "person_differences.time_scores: every score is %g; a slope needs scores that differ", b.Scores[0])
+		}
+	}
+	if b.TimeScores == TimeOccasions && T > 0 && float64(pan.Occasions[T-1]-pan.Occasions[0]) > 1e6 {
+		p.addf(f, b.TimeLine, "person_differences.time_scores: occasion_values spans %d units; give time scores in a coarser unit as a list", pan.Occasions[T-1]-pan.Occasions[0])
+	}
+}
+
+// TimeScores returns the growth time score of each grid occasion
+// (person_differences.time_scores); sp and pan must have passed Identify.
+func TimeScores(sp *Spec, pan *Panel) []float64 {
+	T := pan.T()
+	s := make([]float64, T)
+	for t := range s {
+		switch sp.Between.TimeScores {
+		case TimeOccasions:
+			s[t] = float64(pan.Occasions[t] - pan.Occasions[0])
+		case TimeGiven:
+			s[t] = sp.Between.Scores[t]
+		default:
+			s[t] = float64(t)
+		}
+	}
+	return s
 }
 
 // withinInformation reports whether some person has observed values at

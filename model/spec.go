@@ -2,6 +2,7 @@ package model
 
 import (
 	"fmt"
+	"math"
 	"os"
 	"path/filepath"
 	"slices"
@@ -104,7 +105,26 @@ type OutcomeSpec struct {
 // BetweenSpec is the between-person part.
 type BetweenSpec struct {
 	RandomIntercepts bool
+	// RandomSlopes (person_differences.random_slopes) adds a random slope
+	// over the time scores: y*_ijt = mu0_j + s_t mu1_j + b_ij + s_t g_ij +
+	// w_ijt, (b_i, g_i) correlated, the growth line replacing the
+	// occasion means.
+	RandomSlopes bool
+	// TimeScores (person_differences.time_scores) says where s_t comes
+	// from: TimeEqual (0, 1, 2, ... over the occasions), TimeOccasions
+	// (the occasion values minus the first) or TimeGiven (Scores, one per
+	// occasion). TimeLine is the key's line (0: not given).
+	TimeScores string
+	Scores     []float64
+	TimeLine   int
 }
+
+// Time scores of growth (person_differences.time_scores).
+const (
+	TimeEqual     = "equally_spaced"
+	TimeOccasions = "occasion_values"
+	TimeGiven     = "given"
+)
 
 // WithinSpec is the within-person part.
 type WithinSpec struct {
@@ -121,6 +141,9 @@ type WithinSpec struct {
 // MeansSpec is the occasion-mean structure.
 type MeansSpec struct {
 	Free bool // over_time: free
+	// Set: a key of the means section was given (refused with random
+	// slopes, whose growth line replaces the occasion means).
+	Set bool
 	// Anchor (means.anchor) says at which occasion a categorical outcome's
 	// mean is fixed at 0 when means are free (its thresholds carry the
 	// location there): AnchorAuto, AnchorFirst, or an occasion value.
@@ -163,7 +186,7 @@ var schema = map[string][]string{
 	"":                   {"data", "outcomes", "person_differences", "dynamics", "means", "sampler"},
 	"data":               {"csv", "person", "occasion", "missing_codes", "separator", "layout", "wide_columns"},
 	"outcomes":           {"name", "display_name", "type", "categories", "lowest", "labels", "empty_categories", "columns"},
-	"person_differences": {"random_intercepts"},
+	"person_differences": {"random_intercepts", "random_slopes", "time_scores"},
 	"dynamics":           {"lags", "residual_correlation", "over_time", "first_occasion", "moving_average"},
 	"means":              {"over_time", "anchor"},
 	"sampler":            {"chains", "warmup", "draws", "seed", "threshold_update", "until_converged", "max_draws", "time_limit", "path_moves", "checkpoint_every"},
@@ -306,6 +329,20 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 		if v, ok := m["random_intercepts"]; ok {
 			sp.Between.RandomIntercepts = r.boolean(v, "person_differences.random_intercepts")
 		}
+		if v, ok := m["random_slopes"]; ok {
+			sp.Between.RandomSlopes = r.boolean(v, "person_differences.random_slopes")
+		}
+		sp.Between.TimeScores = TimeEqual
+		if v, ok := m["time_scores"]; ok {
+			sp.Between.TimeLine = v.Line
+			r.timeScores(v, &sp.Between)
+			if !sp.Between.RandomSlopes {
+				p.addf(path, v.Line, "person_differences.time_scores: only used with person_differences.random_slopes: true")
+			}
+		}
+		if sp.Between.RandomSlopes && !sp.Between.RandomIntercepts {
+			p.addf(path, n.Line, "person_differences.random_slopes: true needs random_intercepts: true; a random slope without a random intercept would force every person's line through the same level at time score 0")
+		}
 	} else {
 		sp.Between.RandomIntercepts = true
 	}
@@ -330,6 +367,10 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 	}
 	if n, ok := top["means"]; ok {
 		m := r.mapping(n, "means")
+		sp.Means.Set = len(m) > 0
+		if sp.Between.RandomSlopes && len(m) > 0 {
+			p.addf(path, n.Line, "means: not used with person_differences.random_slopes: true; the means then follow the growth line (a mean intercept and a mean slope per outcome, the intercept fixed at 0 for a categorical outcome, whose thresholds carry its level); leave the means section out")
+		}
 		if v, ok := m["over_time"]; ok {
 			sp.Means.Free = r.choice(v, "means.over_time", "free", "equal") == "free"
 		}
@@ -383,6 +424,10 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 		if v, ok := m["threshold_update"]; ok {
 			sp.Sampler.ThresholdUpdate = ThresholdUpdate(r.choice(v, "sampler.threshold_update", "joint", "albert-chib"))
 		}
+	}
+	if sp.Between.RandomSlopes {
+		// The growth line replaces the occasion means.
+		sp.Means.Free = false
 	}
 	if !sp.Within.residualSet {
 		sp.Within.ResidualCorrelation = len(sp.Outcomes) > 1
@@ -600,6 +645,30 @@ func (r *reader) outcome(n *yaml.Node, i int) OutcomeSpec {
 		o.Columns = r.occasionColumns(v, key+": columns")
 	}
 	return o
+}
+
+// timeScores reads person_differences.time_scores: equally_spaced,
+// occasion_values or a list of numbers (one per occasion, checked against
+// the data by Identify).
+func (r *reader) timeScores(n *yaml.Node, b *BetweenSpec) {
+	const key = "person_differences.time_scores"
+	if n.Kind == yaml.ScalarNode {
+		b.TimeScores = r.choice(n, key, TimeEqual, TimeOccasions)
+		return
+	}
+	if n.Kind != yaml.SequenceNode || len(n.Content) == 0 {
+		r.p.addf(r.file, n.Line, "%s: expected equally_spaced, occasion_values or a list of numbers, one per occasion (e.g. [0, 1, 2, 4])", key)
+		return
+	}
+	b.TimeScores = TimeGiven
+	for _, c := range n.Content {
+		v, err := strconv.ParseFloat(c.Value, 64)
+		if c.Kind != yaml.ScalarNode || err != nil || math.IsNaN(v) || math.IsInf(v, 0) || math.Abs(v) > 1e6 {
+			r.p.addf(r.file, c.Line, "%s: expected a number (at most 1e6 in size), got %q", key, clipText(c.Value, 40))
+			continue
+		}
+		b.Scores = append(b.Scores, v)
+	}
 }
 
 // occasionColumns reads a map from occasions (whole numbers) to column

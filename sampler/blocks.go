@@ -69,6 +69,10 @@ func (lb *LatentBlock) updateShard(st *State, s, lo, hi int) {
 		Ti := l.Panel.Len[i]
 		st.fillW(w, i, st.Ystar)
 		b := st.B[i*J : i*J+J]
+		var g []float64 // growth: the slopes
+		if st.G != nil {
+			g = st.G[i*J : i*J+J]
+		}
 		for t := 0; t < Ti; t++ {
 			d := st.DMid[t*JJ : (t+1)*JJ]
 			sds, invs := st.MidSD[t*J:(t+1)*J], st.MidInv[t*J:(t+1)*J]
@@ -116,6 +120,9 @@ func (lb *LatentBlock) updateShard(st *State, s, lo, hi int) {
 					continue
 				}
 				shift := st.Nu[t*J+j] + b[j] + mean
+				if g != nil {
+					shift += l.Time[t] * g[j]
+				}
 				tau := st.Tau[j]
 				k := int(y)
 				lo, hi := math.Inf(-1), math.Inf(1)
@@ -136,6 +143,11 @@ func (lb *LatentBlock) updateShard(st *State, s, lo, hi int) {
 			c := t * J
 			for j, bj := range b {
 				st.Ystar[off+c+j] = w[c+j] + st.Nu[c+j] + bj
+			}
+			if g != nil {
+				for j, gj := range g {
+					st.Ystar[off+c+j] += l.Time[t] * gj
+				}
 			}
 		}
 		accumulateWQuad(st, wq, w, Ti, lb.v[s], lb.sv[s])
@@ -158,8 +170,16 @@ func (lb *LatentBlock) updateShard1(st *State, s, lo, hi int) {
 		y := st.Y[off : off+Ti]
 		nu := st.Nu[:Ti]
 		w := w[:Ti]
-		for t := range w {
-			w[t] = ys[t] - nu[t] - b
+		var g float64 // growth: the slope
+		if st.G != nil {
+			g = st.G[i]
+			for t := range w {
+				w[t] = ys[t] - nu[t] - b - l.Time[t]*g
+			}
+		} else {
+			for t := range w {
+				w[t] = ys[t] - nu[t] - b
+			}
 		}
 		for t := 0; t < Ti; t++ {
 			sd, inv := st.MidSD[t], st.MidInv[t]
@@ -179,6 +199,9 @@ func (lb *LatentBlock) updateShard1(st *State, s, lo, hi int) {
 				continue
 			}
 			shift := nu[t] + b + mean
+			if g != 0 {
+				shift += l.Time[t] * g
+			}
 			k := int(yt)
 			a, c := math.Inf(-1), math.Inf(1)
 			if k > 0 {
@@ -195,6 +218,9 @@ func (lb *LatentBlock) updateShard1(st *State, s, lo, hi int) {
 		}
 		for t := 0; t < Ti; t++ {
 			ys[t] = w[t] + nu[t] + b
+			if g != 0 {
+				ys[t] += l.Time[t] * g
+			}
 			x := w[t]
 			if t > 0 {
 				x -= st.A[t] * w[t-1]

@@ -25,8 +25,14 @@ type Generator struct {
 	// M holds moving-average coefficients (T x J, nil: none): w_t gains
 	// M_t zeta_{t-1} (movingavg.go; zero at the first two occasions).
 	M []float64
+	// Growth (term_growth.go, SetGrowth): Time holds the time scores
+	// (nil: no growth), GrowthMean the 2J means of the intercepts and
+	// slopes, psiChol the Cholesky factor of their covariance; y*_ijt
+	// gains s_t g_ij.
+	Time, GrowthMean []float64
 
 	sigChol, psiChol []float64
+	f                []float64 // growth factors of the current person
 	z, cur, prev     []float64
 	zeta, zetaPrev   []float64
 }
@@ -53,28 +59,48 @@ func NewGenerator(J, T int, cat []bool, nu []float64, tau [][]float64, a, sig, p
 	return g, nil
 }
 
+// SetGrowth makes the generator's persons grow along time scores time:
+// intercepts and slopes f_i ~ N(mean, psi), psi 2J x 2J (intercepts
+// first), replacing the random intercepts.
+func (g *Generator) SetGrowth(time, mean, psi []float64) error {
+	n := 2 * g.J
+	g.psiChol = append([]float64(nil), psi[:n*n]...)
+	if !dense.Cholesky(g.psiChol, n) {
+		return fmt.Errorf("covariance of the intercepts and slopes not positive definite")
+	}
+	g.Time, g.GrowthMean = time, mean
+	g.f, g.z = make([]float64, n), make([]float64, n)
+	return nil
+}
+
 // Generator returns the state's model as a generator (on the analysis
 // scale: continuous outcomes standardized).
 func (s *State) Generator() (*Generator, error) {
 	var psi []float64
-	if s.L.RI {
+	if s.L.RI && !s.L.Growth {
 		psi = s.Psi
 	}
 	g, err := NewGenerator(s.L.J, s.L.T, s.L.Cat, s.Nu, s.Tau, s.A, s.Sig, psi)
 	if err == nil && s.L.MA {
 		g.M = s.M
 	}
+	if err == nil && s.L.Growth {
+		err = g.SetGrowth(s.L.Time, s.GMean, s.Psi)
+	}
 	return g, err
 }
 
 func (g *Generator) draw(dst, chol []float64, rng *rand.Rand) {
-	for q := range g.z {
-		g.z[q] = rng.NormFloat64()
+	n := len(dst)
+	z := g.z[:n]
+	for q := range z {
+		z[q] = rng.NormFloat64()
 	}
-	dense.MulVec(dst, chol, g.z, g.J, g.J)
+	dense.MulVec(dst, chol, z, n, n)
 }
 
-// Person draws one person's random intercepts into b (J values) and
+// Person draws one person's random intercepts into b (J values; under
+// growth the intercepts, the slopes being drawn with them) and
 // latent responses at occasions 0..n-1, calling cell(t, j, y*) for every
 // cell in order, after occasion t's within part is drawn (cell may draw
 // from rng too, e.g. whether the cell is missing).
@@ -84,7 +110,16 @@ func (g *Generator) Person(n int, rng *rand.Rand, b []float64, cell func(t, j in
 	for q := range b {
 		b[q] = 0
 	}
-	if g.psiChol != nil {
+	var slope []float64
+	switch {
+	case g.Time != nil:
+		g.draw(g.f, g.psiChol, rng)
+		for q := range g.f {
+			g.f[q] += g.GrowthMean[q]
+		}
+		copy(b, g.f[:J])
+		slope = g.f[J:]
+	case g.psiChol != nil:
 		g.draw(b, g.psiChol, rng)
 	}
 	cur, prev := g.cur, g.prev
@@ -113,7 +148,11 @@ func (g *Generator) Person(n int, rng *rand.Rand, b []float64, cell func(t, j in
 			if g.Nu != nil {
 				nu = g.Nu[t*J+j]
 			}
-			cell(t, j, nu+b[j]+cur[j])
+			y := nu + b[j] + cur[j]
+			if slope != nil {
+				y += g.Time[t] * slope[j]
+			}
+			cell(t, j, y)
 		}
 	}
 }

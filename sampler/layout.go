@@ -34,6 +34,11 @@ type Layout struct {
 	// MA: ARMA(1,1) within parts (term_movingavg.go); maFixed (tests
 	// only) keeps the moving-average coefficients where they start.
 	MA, maFixed bool
+	// Growth: random slopes over the time scores Time (one per grid
+	// occasion; term_growth.go). The growth line replaces the occasion
+	// means (NMean = 0).
+	Growth bool
+	Time   []float64
 
 	// MeanIdx[t*J+j] is the index of the free mean parameter of outcome j at
 	// grid occasion t, or -1 where the mean is fixed at 0: a categorical
@@ -67,6 +72,15 @@ type Layout struct {
 	pathOcc, iccOcc, transOcc []int
 }
 
+// NF is the number of random effects per person: J intercepts, and J
+// slopes more under growth (the order of Psi's rows).
+func (l *Layout) NF() int {
+	if l.Growth {
+		return 2 * l.J
+	}
+	return l.J
+}
+
 // CovGroup is one free covariance matrix: the first occasion's or an
 // innovation covariance shared by the occasions in Occ.
 type CovGroup struct {
@@ -82,7 +96,10 @@ func NewLayout(sp *model.Spec, pan *model.Panel, pr priors.Set) *Layout {
 	l := &Layout{Spec: sp, Panel: pan, Priors: pr, J: J, T: T, N: len(pan.Persons),
 		RI: sp.Between.RandomIntercepts, Lags: sp.Within.Lags, ResCorr: sp.Within.ResidualCorrelation,
 		PathsFree: sp.Within.PathsFree, Stat: sp.Within.StationaryStart, MeansFree: sp.Means.Free,
-		MA: sp.Within.MovingAverage && pan.T() > 2}
+		MA: sp.Within.MovingAverage && pan.T() > 2, Growth: sp.Between.RandomSlopes}
+	if l.Growth {
+		l.Time = model.TimeScores(sp, pan)
+	}
 	if T < 2 {
 		l.Lags = model.LagsNone
 	}
@@ -125,7 +142,7 @@ func NewLayout(sp *model.Spec, pan *model.Panel, pr priors.Set) *Layout {
 			l.Notes = append(l.Notes, fmt.Sprintf("outcome %q was answered by nobody at occasion %s: no mean is estimated there (it would rest on the prior alone) and the mean stays fixed there (at the anchor occasion's level for a categorical outcome, at the overall mean for a continuous one)", pan.Outcomes[j].Name, strings.Join(occ, ", ")))
 		}
 	}
-	if !l.MeansFree {
+	if !l.MeansFree && !l.Growth {
 		for j := 0; j < J; j++ {
 			if !l.Cat[j] {
 				for t := 0; t < T; t++ {
@@ -245,7 +262,11 @@ func (l *Layout) occasionLists() (paths, icc, trans []int) {
 	if l.PathsFree {
 		paths, icc = from(1), from(0)
 	}
-	if l.PathsFree || l.MeansFree {
+	if l.Growth {
+		// The between variance changes along the growth line.
+		icc = from(0)
+	}
+	if l.PathsFree || l.MeansFree || l.Growth {
 		trans = from(1)
 	}
 	return paths, icc, trans

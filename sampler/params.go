@@ -128,6 +128,12 @@ func (s *State) Replicate(dst []float64, rng *rand.Rand) {
 // cell (missing ones included) in ystar and the random intercepts in b, when
 // those are not nil: a draw from p(y, y*, b | parameters).
 func (s *State) ReplicateLatent(dst, ystar, b []float64, rng *rand.Rand) {
+	s.ReplicateFactors(dst, ystar, b, nil, rng)
+}
+
+// ReplicateFactors is ReplicateLatent that under growth also keeps the
+// random slopes in slopes (N x J), when not nil.
+func (s *State) ReplicateFactors(dst, ystar, b, slopes []float64, rng *rand.Rand) {
 	l := s.L
 	J := l.J
 	g, err := s.Generator()
@@ -153,6 +159,9 @@ func (s *State) ReplicateLatent(dst, ystar, b []float64, rng *rand.Rand) {
 		})
 		if b != nil {
 			copy(b[i*J:i*J+J], bi)
+		}
+		if slopes != nil && g.Time != nil {
+			copy(slopes[i*J:i*J+J], g.f[J:])
 		}
 	}
 }

@@ -16,6 +16,7 @@ var registry = []registryEntry{
 	{term: thresholdTerm{}, draw: 1, derived: 3},
 	{term: meanTerm{}, draw: 2},
 	{term: interceptTerm{}, draw: 6, derived: 2},
+	{term: growthTerm{}, draw: 9, derived: 6},
 	{term: pathTerm{}, draw: 3, derived: 1},
 	{term: movingAverageTerm{}, draw: 7, derived: 5},
 	{term: innovationTerm{}, draw: 4},

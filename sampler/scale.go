@@ -34,7 +34,7 @@ type ScaleBlock struct {
 // NewScaleBlock allocates the block's workspace.
 func NewScaleBlock(l *Layout) *ScaleBlock {
 	sb := &ScaleBlock{m: make([]float64, l.J*l.J), r: make([]float64, l.J*l.J), v: make([]float64, l.J*l.J), sv: make([]float64, l.J*l.J),
-		w: make([]float64, l.MaxLen*l.J), psiIn: make([]float64, l.J*l.J), tmp: make([]float64, l.J*l.J+l.J),
+		w: make([]float64, l.MaxLen*l.J), psiIn: make([]float64, l.NF()*l.NF()), tmp: make([]float64, l.NF()*l.NF()+l.NF()),
 		meansOf: NewLocationBlock(l).meansOf, d: make([]float64, l.J)}
 	if l.MA {
 		sb.ma = make([]float64, (l.J+1)*l.MaxLen*l.J+l.J)
@@ -51,6 +51,9 @@ func NewScaleBlock(l *Layout) *ScaleBlock {
 		d := float64(n + l.K[j] - 1 + len(sb.meansOf[j]))
 		if l.RI {
 			d += float64(l.N)
+		}
+		if l.Growth {
+			d += float64(l.N) + 1 // the slopes and the mean slope
 		}
 		sb.d[j] = d
 	}
@@ -71,8 +74,8 @@ func (*ScaleBlock) Name() string { return "scale moves" }
 func (sb *ScaleBlock) Update(st *State, rng *rand.Rand) error {
 	l := st.L
 	J := l.J
-	JJ := J * J
-	if l.RI && !dense.Inverse(sb.psiIn, st.Psi, J, sb.tmp[:JJ], sb.tmp[JJ:]) {
+	nf := l.NF()
+	if l.RI && !dense.Inverse(sb.psiIn, st.Psi, nf, sb.tmp[:nf*nf], sb.tmp[nf*nf:]) {
 		return errBlock("scale moves", "random-intercept covariance is not positive definite")
 	}
 	statsOK := st.WQuadOK
@@ -93,7 +96,9 @@ func (sb *ScaleBlock) Update(st *State, rng *rand.Rand) error {
 		}
 	}
 	symmetrize(M, J)
-	if l.RI {
+	if l.Growth {
+		sb.growthQuad(st, R)
+	} else if l.RI {
 		for i := 0; i < l.N; i++ {
 			b := st.B[i*J : i*J+J]
 			for j := 0; j < J; j++ {
@@ -124,6 +129,10 @@ func (sb *ScaleBlock) Update(st *State, rng *rand.Rand) error {
 		for _, idx := range sb.meansOf[j] {
 			a += iv * st.Mean[idx] * st.Mean[idx]
 		}
+		if l.Growth {
+			sd := growthMeanSD(l, l.Priors, J+j)
+			a += st.GMean[J+j] * st.GMean[J+j] / (sd * sd)
+		}
 		g, ok := sb.drawScale(rng, a, c, sb.d[j])
 		if !ok {
 			continue
@@ -148,6 +157,12 @@ func (sb *ScaleBlock) Update(st *State, rng *rand.Rand) error {
 			if l.RI {
 				st.B[i*J+j] *= g
 			}
+			if l.Growth {
+				st.G[i*J+j] *= g
+			}
+		}
+		if l.Growth {
+			st.GMean[J+j] *= g // the mean intercept of a categorical outcome is 0
 		}
 		for k := range st.Tau[j] {
 			st.Tau[j][k] *= g
@@ -162,6 +177,30 @@ func (sb *ScaleBlock) Update(st *State, rng *rand.Rand) error {
 		st.WQuadOK = true
 	}
 	return nil
+}
+
+// growthQuad writes into R (J x J, symmetric) the shares of the growth
+// factors' prior quadratic form: R[j][k] = sum_i sum_{p,q} d_ipj
+// (Psi^{-1})_{pj,qk} d_iqk over intercepts and slopes (p, q), d_i = f_i - mu.
+// Scaling outcome j by g scales d_i.j by g, so R scales as in Update.
+func (sb *ScaleBlock) growthQuad(st *State, R []float64) {
+	l := st.L
+	J, n := l.J, 2*l.J
+	d := sb.tmp[:n]
+	for i := 0; i < l.N; i++ {
+		for j := 0; j < J; j++ {
+			d[j] = st.B[i*J+j] - st.GMean[j]
+			d[J+j] = st.G[i*J+j] - st.GMean[J+j]
+		}
+		for r := 0; r < n; r++ {
+			for c := 0; c < n; c++ {
+				if r%J >= c%J {
+					R[(r%J)*J+c%J] += d[r] * sb.psiIn[r*n+c] * d[c]
+				}
+			}
+		}
+	}
+	symmetrize(R, J)
 }
 
 // drawScale makes the independence Metropolis-Hastings step for eta =

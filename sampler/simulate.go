@@ -26,6 +26,10 @@ type Truth struct {
 	// MA holds moving-average coefficients (one per outcome, equal over
 	// time; nil: none); it needs Sigma1.
 	MA []float64
+	// Growth: GrowthPsi (2J x 2J, intercepts first; nil: no growth)
+	// replaces Psi, with the means GrowthMean (2J) and the time scores
+	// Time (one per occasion; nil: 0, 1, 2, ...).
+	GrowthPsi, GrowthMean, Time []float64
 	// Missing is the probability that a cell is missing; such cells are
 	// written as MissingCode ("NA" when empty and MissingSet is false).
 	Missing     float64
@@ -76,6 +80,25 @@ func Simulate(tr Truth, n, t int, rng *rand.Rand) ([]byte, error) {
 	g, err := NewGenerator(J, t, cat, tr.Nu, tr.Tau, at, sig, tr.Psi)
 	if err != nil {
 		return nil, fmt.Errorf("simulate: %v", err)
+	}
+	if tr.GrowthPsi != nil {
+		time := tr.Time
+		if time == nil {
+			time = make([]float64, t)
+			for s := range time {
+				time[s] = float64(s)
+			}
+		}
+		if len(time) < t {
+			return nil, fmt.Errorf("simulate: %d time scores for %d occasions", len(time), t)
+		}
+		mean := tr.GrowthMean
+		if mean == nil {
+			mean = make([]float64, 2*J)
+		}
+		if err := g.SetGrowth(time, mean, tr.GrowthPsi); err != nil {
+			return nil, fmt.Errorf("simulate: %v", err)
+		}
 	}
 	if tr.MA != nil {
 		g.M = make([]float64, t*J)

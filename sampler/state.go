@@ -29,7 +29,11 @@ type State struct {
 	SD  [][]float64 // per covariance group: standard deviations
 	R   [][]float64 // per covariance group: correlation matrix
 	Sig []float64   // Sigma_t, T blocks (block 0: first occasion)
-	Psi []float64   // random-intercept covariance
+	Psi []float64   // random-intercept covariance (growth: of intercepts then slopes, 2J x 2J)
+	// Growth (term_growth.go): G holds the random slopes (N x J) and
+	// GMean the means of the intercepts and slopes (2J); both live in
+	// the growth term's own storage. nil without growth.
+	G, GMean []float64
 
 	// Caches refreshed by Refresh.
 	SigInv []float64 // Sigma_t^{-1}
@@ -77,7 +81,7 @@ func NewState(l *Layout, rng *rand.Rand) *State {
 		Ystar: make([]float64, len(l.Panel.Y)), Y: make([]float64, len(l.Panel.Y)),
 		B: make([]float64, N*J), Tau: make([][]float64, J), Mean: make([]float64, l.NMean),
 		Nu: make([]float64, T*J), A: make([]float64, T*J*J), M: make([]float64, T*J), Sig: make([]float64, T*J*J),
-		Psi: make([]float64, J*J), SigInv: make([]float64, T*J*J), LBlk: make([]float64, T*J*J),
+		Psi: make([]float64, l.NF()*l.NF()), SigInv: make([]float64, T*J*J), LBlk: make([]float64, T*J*J),
 		DMid: make([]float64, T*J*J), LogDet: make([]float64, T), work: make([]float64, 6*J*J+2*J),
 		WQuad: make([]float64, J*J),
 		MidSD: make([]float64, T*J), MidInv: make([]float64, T*J), LastSD: make([]float64, T*J), LastInv: make([]float64, T*J),
@@ -112,6 +116,10 @@ func NewState(l *Layout, rng *rand.Rand) *State {
 		if o, ok := t.(OwnValues); ok {
 			s.own[k] = make([]float64, o.OwnSize(l))
 		}
+	}
+	if l.Growth {
+		o := s.Own(growthTerm{})
+		s.GMean, s.G = o[:2*J], o[2*J:]
 	}
 	s.Mom = newMoments(l)
 	s.quadW, s.quadZ, s.quadPart = shardBufs(l, l.MaxLen*J), shardBufs(l, max(J, l.MaxLen*J)), make([]float64, len(l.ShardStart)-1)
@@ -269,12 +277,59 @@ func (s *State) fillW(w []float64, i int, ys []float64) {
 	J := l.J
 	off := l.Panel.Offset[i]
 	b := s.B[i*J : i*J+J]
+	if s.G != nil {
+		g := s.G[i*J : i*J+J]
+		for t := 0; t < l.Panel.Len[i]; t++ {
+			c, tm := t*J, l.Time[t]
+			for j, bj := range b {
+				w[c+j] = ys[off+c+j] - s.Nu[c+j] - bj - tm*g[j]
+			}
+		}
+		return
+	}
 	for t := 0; t < l.Panel.Len[i]; t++ {
 		c := t * J
 		for j, bj := range b {
 			w[c+j] = ys[off+c+j] - s.Nu[c+j] - bj
 		}
 	}
+}
+
+// between returns person i's between part of outcome j at grid occasion
+// t: the random intercept, plus the slope times the time score under
+// growth.
+func (s *State) between(i, t, j int) float64 {
+	J := s.L.J
+	if s.G != nil {
+		return s.B[i*J+j] + s.L.Time[t]*s.G[i*J+j]
+	}
+	return s.B[i*J+j]
+}
+
+// CellMean returns the model's mean of the latent response of outcome j
+// at grid occasion t over persons: the occasion mean, or under growth
+// the mean intercept plus the mean slope times the time score.
+func (s *State) CellMean(t, j int) float64 {
+	if s.G != nil {
+		return s.Nu[t*s.L.J+j] + s.GMean[j] + s.L.Time[t]*s.GMean[s.L.J+j]
+	}
+	return s.Nu[t*s.L.J+j]
+}
+
+// BetweenCov returns the covariance of the between parts of outcome a at
+// grid occasion t1 and outcome b at t2: Psi[a,b] with random intercepts,
+// z_t1' Psi_ab z_t2 (z_t = (1, s_t)) under growth, 0 without.
+func (s *State) BetweenCov(t1, a, t2, b int) float64 {
+	l := s.L
+	if !l.RI {
+		return 0
+	}
+	if s.G == nil {
+		return s.Psi[a*l.J+b]
+	}
+	n, J := 2*l.J, l.J
+	s1, s2 := l.Time[t1], l.Time[t2]
+	return s.Psi[a*n+b] + s2*s.Psi[a*n+J+b] + s1*s.Psi[(J+a)*n+b] + s1*s2*s.Psi[(J+a)*n+J+b]
 }
 
 // withinQuad returns -1/2 sum_t zeta_t' Sigma_t^{-1} zeta_t over all persons

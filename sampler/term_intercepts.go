@@ -17,7 +17,9 @@ type interceptTerm struct{}
 
 func (interceptTerm) Name() string { return "random intercepts" }
 
-func (interceptTerm) Active(l *Layout) bool { return l.RI }
+// Active: under growth the growth term (term_growth.go) owns the
+// intercepts with the slopes.
+func (interceptTerm) Active(l *Layout) bool { return l.RI && !l.Growth }
 
 func (interceptTerm) Params(l *Layout) []Param {
 	var ps []Param

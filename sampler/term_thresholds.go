@@ -146,7 +146,8 @@ func (thresholdTerm) DerivedParams(l *Layout) []Param {
 }
 
 // ExtractDerived: the model-implied marginal probabilities
-// Phi((tau_k - nu_jt)/sqrt(psi_jj + V_t[j,j])) differences.
+// Phi((tau_k - nu_jt)/sqrt(psi_jj + V_t[j,j])) differences (under growth
+// the mean and between variance of the growth line at t).
 func (thresholdTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []float64 {
 	l := s.L
 	J := l.J
@@ -157,12 +158,13 @@ func (thresholdTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []
 			continue
 		}
 		for t := 0; t < l.T; t++ {
-			sd := math.Sqrt(s.Psi[j*J+j] + dw.v[t*JJ+j*J+j])
+			sd := math.Sqrt(s.BetweenCov(t, j, t, j) + dw.v[t*JJ+j*J+j])
+			mu := s.CellMean(t, j)
 			prev := 0.0
 			for k := 0; k < l.K[j]; k++ {
 				c := 1.0
 				if k < l.K[j]-1 {
-					c = norm.CDF((s.Tau[j][k] - s.Nu[t*J+j]) / sd)
+					c = norm.CDF((s.Tau[j][k] - mu) / sd)
 				}
 				dst = append(dst, c-prev)
 				prev = c

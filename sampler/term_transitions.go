@@ -101,11 +101,15 @@ func (transitionTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) [
 				if l.MA {
 					cov += s.M[t*J+j] * s.Sig[(t-1)*JJ+j*J+j]
 				}
-				nuPrev, nuCur = s.Nu[(t-1)*J+j], s.Nu[t*J+j]
+				nuPrev, nuCur = s.CellMean(t-1, j), s.CellMean(t, j)
 			}
 			for _, scope := range transitionScopes {
 				v1, v2, c := vPrev, vCur, cov
-				if scope == "average" && l.RI {
+				if scope == "average" && l.Growth {
+					v1 += s.BetweenCov(t-1, j, t-1, j)
+					v2 += s.BetweenCov(t, j, t, j)
+					c += s.BetweenCov(t-1, j, t, j)
+				} else if scope == "average" && l.RI {
 					p := s.Psi[j*J+j]
 					v1, v2, c = v1+p, v2+p, c+p
 				}

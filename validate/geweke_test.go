@@ -13,7 +13,7 @@ import (
 // intercepts by a draw from p(y, y*, b | parameters): the data step of
 // Geweke's successive-conditional simulator.
 func redrawData(st *sampler.State, rng *rand.Rand, y []float64) {
-	st.ReplicateLatent(y, st.Ystar, st.B, rng)
+	st.ReplicateFactors(y, st.Ystar, st.B, st.G, rng)
 	copy(st.Y, y)
 }
 
@@ -44,10 +44,17 @@ func TestGewekeJointDistribution(t *testing.T) {
 		// The ARMA(1,1) blocks (sampler/movingavg.go), with the collapsed
 		// move of the moving averages and paths.
 		{"moving average", cross + ", moving_average: true", "over_time: free", sampler.Options{ThresholdUpdate: model.ThresholdJoint}},
+		// Growth (sampler/growth.go): the factors drawn with their means
+		// integrated out, their covariance, the scale move with slopes.
+		{"growth", cross, "", sampler.Options{ThresholdUpdate: model.ThresholdJoint}},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			t.Parallel()
-			geweke(t, Scenario{Name: "geweke", Model: base(pair, ri, c.within, c.means), Persons: 8, Times: 4}, c.opt)
+			between := ri
+			if c.name == "growth" {
+				between += ", random_slopes: true"
+			}
+			geweke(t, Scenario{Name: "geweke", Model: base(pair, between, c.within, c.means), Persons: 8, Times: 4}, c.opt)
 		})
 	}
 }
@@ -112,7 +119,7 @@ func geweke(t *testing.T, sc Scenario, opt sampler.Options) {
 	// z statistic would mean nothing: those test functions are left out.
 	var use []int
 	for k := 0; k < 2*np; k++ {
-		if k >= np && params[k-np].Kind == "ri_variance" {
+		if k >= np && (params[k-np].Kind == "ri_variance" || params[k-np].Kind == "slope_variance") {
 			continue
 		}
 		use = append(use, k)
