@@ -148,7 +148,10 @@ func truthFrom(sp *model.Spec, ts *model.TruthSpec, file string, T int) (sampler
 	} else if len(ts.InitVar) > 0 || len(ts.InitCorr) > 0 {
 		bad("first_occasion: the model file asks for a stationary first occasion, whose covariance follows from the paths and innovations")
 	}
-	if sp.Between.RandomIntercepts {
+	if sp.Between.RandomSlopes {
+		growthTruth(&tr, sp, ts, T, idx, bad)
+	}
+	if sp.Between.RandomIntercepts && !sp.Between.RandomSlopes {
 		tr.Psi = make([]float64, J*J)
 		for j, o := range sp.Outcomes {
 			v, ok := ts.RIVar[o.Name]
@@ -162,7 +165,7 @@ func truthFrom(sp *model.Spec, ts *model.TruthSpec, file string, T int) (sampler
 			c := p.Value * math.Sqrt(tr.Psi[a*J+a]*tr.Psi[b*J+b])
 			tr.Psi[a*J+b], tr.Psi[b*J+a] = c, c
 		}
-	} else if len(ts.RIVar) > 0 {
+	} else if len(ts.RIVar) > 0 && !sp.Between.RandomSlopes {
 		bad("random_intercepts: the model file has person_differences.random_intercepts: false")
 	}
 	if sp.Within.MovingAverage {
@@ -185,12 +188,12 @@ func truthFrom(sp *model.Spec, ts *model.TruthSpec, file string, T int) (sampler
 	for _, m := range []struct {
 		name string
 		v    []float64
-	}{{"innovations", tr.Sigma}, {"first_occasion", tr.Sigma1}, {"random_intercepts", tr.Psi}} {
+	}{{"innovations", tr.Sigma}, {"first_occasion", tr.Sigma1}, {"random_intercepts", tr.Psi}, {"random_intercepts and random_slopes", tr.GrowthPsi}} {
 		if m.v == nil {
 			continue
 		}
 		c := append([]float64(nil), m.v...)
-		if !dense.Cholesky(c, J) {
+		if n := int(math.Round(math.Sqrt(float64(len(c))))); !dense.Cholesky(c, n) {
 			bad("%s: the covariance matrix is not positive definite", m.name)
 		}
 	}
@@ -198,4 +201,65 @@ func truthFrom(sp *model.Spec, ts *model.TruthSpec, file string, T int) (sampler
 		return tr, errors.Join(errs...)
 	}
 	return tr, nil
+}
+
+// growthTruth fills the growth part of tr: the covariance of the
+// intercepts and slopes (random_intercepts and random_slopes), their
+// means (the means section gives the mean intercepts, at time score 0;
+// random_slopes.means the mean slopes) and the time scores of T
+// occasions.
+func growthTruth(tr *sampler.Truth, sp *model.Spec, ts *model.TruthSpec, T int, idx map[string]int, bad func(string, ...any)) {
+	J := len(sp.Outcomes)
+	n := 2 * J
+	psi := make([]float64, n*n)
+	for j, o := range sp.Outcomes {
+		v, ok := ts.RIVar[o.Name]
+		if !ok {
+			bad("random_intercepts.variances: outcome %q needs a variance", o.Name)
+		}
+		psi[j*n+j] = v
+		v, ok = ts.SlopeVar[o.Name]
+		if !ok {
+			bad("random_slopes.variances: outcome %q needs a slope variance", o.Name)
+		}
+		psi[(J+j)*n+J+j] = v
+	}
+	set := func(r, c int, v float64) {
+		x := v * math.Sqrt(psi[r*n+r]*psi[c*n+c])
+		psi[r*n+c], psi[c*n+r] = x, x
+	}
+	for _, p := range ts.RICorr {
+		set(idx[p.A], idx[p.B], p.Value)
+	}
+	for _, p := range ts.SlopeCorr {
+		set(J+idx[p.A], J+idx[p.B], p.Value)
+	}
+	for _, p := range ts.WithInterc {
+		set(idx[p.A], J+idx[p.B], p.Value)
+	}
+	tr.GrowthPsi = psi
+	tr.GrowthMean = make([]float64, n)
+	for j := 0; j < J; j++ {
+		tr.GrowthMean[j] = tr.Nu[j] // one value (checked below)
+		tr.GrowthMean[J+j] = ts.SlopeMean[sp.Outcomes[j].Name]
+	}
+	for name, v := range ts.Means {
+		if len(v) != 1 {
+			bad("means.%s: with random slopes the means follow the growth line; give the mean intercept (one value, at time score 0) here and the mean slope under random_slopes.means", name)
+		}
+	}
+	tr.Nu = nil
+	tr.Time = make([]float64, T)
+	for t := range tr.Time {
+		switch sp.Between.TimeScores {
+		case model.TimeGiven:
+			if len(sp.Between.Scores) != T {
+				bad("--occasions is %d, but person_differences.time_scores lists %d scores in %s; simulate as many occasions as scores", T, len(sp.Between.Scores), sp.Path)
+				return
+			}
+			tr.Time[t] = sp.Between.Scores[t]
+		default: // simulated occasions are 1, 2, ..., T: equally spaced
+			tr.Time[t] = float64(t)
+		}
+	}
 }

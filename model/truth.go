@@ -25,7 +25,15 @@ type TruthSpec struct {
 	// MovingAvg holds the moving-average coefficient of each outcome
 	// (moving_averages; the model file needs dynamics.moving_average).
 	MovingAvg map[string]float64
-	Missing   float64
+	// Growth (random_slopes; the model file needs
+	// person_differences.random_slopes): the slopes' variances, their
+	// correlations, their means, and the correlations of intercepts with
+	// slopes (Pair.A the intercept's outcome, Pair.B the slope's).
+	SlopeVar   map[string]float64
+	SlopeCorr  []Pair
+	SlopeMean  map[string]float64
+	WithInterc []Pair
+	Missing    float64
 }
 
 // Pair is a correlation between two outcomes.
@@ -43,8 +51,10 @@ type Path struct {
 }
 
 var truthSchema = map[string][]string{
-	"":                  {"thresholds", "means", "random_intercepts", "paths", "innovations", "first_occasion", "moving_averages", "missing"},
+	"":                  {"thresholds", "means", "random_intercepts", "random_slopes", "paths", "innovations", "first_occasion", "moving_averages", "missing"},
 	"random_intercepts": {"variances", "correlations"},
+	"random_slopes":     {"variances", "correlations", "means", "with_intercepts"},
+	"with_intercepts":   {"intercept", "slope", "value"},
 	"innovations":       {"variances", "correlations"},
 	"first_occasion":    {"variances", "correlations"},
 	"correlations":      {"outcomes", "value"},
@@ -70,7 +80,8 @@ func ReadTruth(path string, sp *Spec) (*TruthSpec, error) {
 	p := &problems{}
 	r := &truthReader{reader: reader{file: path, p: p, schema: truthSchema}, sp: sp}
 	ts := &TruthSpec{Thresholds: map[string][]float64{}, Means: map[string][]float64{}, RIVar: map[string]float64{},
-		InnovVar: map[string]float64{}, InitVar: map[string]float64{}, MovingAvg: map[string]float64{}}
+		InnovVar: map[string]float64{}, InitVar: map[string]float64{}, MovingAvg: map[string]float64{},
+		SlopeVar: map[string]float64{}, SlopeMean: map[string]float64{}}
 	top := r.mapping(doc.Content[0], "")
 	if v, ok := top["thresholds"]; ok {
 		for name, n := range r.outcomeMap(v, "thresholds") {
@@ -128,6 +139,15 @@ func ReadTruth(path string, sp *Spec) (*TruthSpec, error) {
 	ts.RICorr = varsCorr("random_intercepts", ts.RIVar)
 	ts.InnovCorr = varsCorr("innovations", ts.InnovVar)
 	ts.InitCorr = varsCorr("first_occasion", ts.InitVar)
+	if v, ok := top["random_slopes"]; ok {
+		if !sp.Between.RandomSlopes {
+			p.addf(path, v.Line, "random_slopes: the model file has no person_differences.random_slopes: true")
+		}
+		ts.SlopeCorr = varsCorr("random_slopes", ts.SlopeVar)
+		r.slopeExtras(v, ts)
+	} else if sp.Between.RandomSlopes {
+		p.addf(path, 0, "random_slopes: the model file has person_differences.random_slopes: true; give the slopes' variances (random_slopes.variances) and, if not 0, their means, correlations and correlations with the intercepts")
+	}
 	if v, ok := top["paths"]; ok {
 		if v.Kind != yaml.SequenceNode {
 			p.addf(path, v.Line, "paths: expected a list of {from: a, to: b, value: x}")
@@ -195,6 +215,49 @@ func ReadTruth(path string, sp *Spec) (*TruthSpec, error) {
 		return nil, err
 	}
 	return ts, nil
+}
+
+// slopeExtras reads random_slopes.means and random_slopes.with_intercepts
+// (the section's keys were checked by varsCorr).
+func (r *truthReader) slopeExtras(n *yaml.Node, ts *TruthSpec) {
+	if n.Kind != yaml.MappingNode {
+		return
+	}
+	for i := 0; i+1 < len(n.Content); i += 2 {
+		k, v := n.Content[i], n.Content[i+1]
+		switch k.Value {
+		case "means":
+			for name, x := range r.outcomeMap(v, "random_slopes.means") {
+				ts.SlopeMean[name] = r.float(x, "random_slopes.means."+name)
+			}
+		case "with_intercepts":
+			if v.Kind != yaml.SequenceNode {
+				r.p.addf(r.file, v.Line, "random_slopes.with_intercepts: expected a list of {intercept: a, slope: b, value: r}")
+				continue
+			}
+			for _, item := range v.Content {
+				im := r.mapping(item, "with_intercepts")
+				pr := Pair{Line: item.Line}
+				if x, ok := im["intercept"]; ok {
+					pr.A = r.outcome(x.Value, x.Line, "random_slopes.with_intercepts.intercept")
+				} else {
+					r.p.addf(r.file, item.Line, "random_slopes.with_intercepts: missing key \"intercept\" (an outcome)")
+				}
+				if x, ok := im["slope"]; ok {
+					pr.B = r.outcome(x.Value, x.Line, "random_slopes.with_intercepts.slope")
+				} else {
+					r.p.addf(r.file, item.Line, "random_slopes.with_intercepts: missing key \"slope\" (an outcome)")
+				}
+				if x, ok := im["value"]; ok {
+					pr.Value = r.float(x, "random_slopes.with_intercepts.value")
+					if !(pr.Value > -1 && pr.Value < 1) {
+						r.p.addf(r.file, x.Line, "random_slopes.with_intercepts.value: expected a correlation between -1 and 1, got %q", x.Value)
+					}
+				}
+				ts.WithInterc = append(ts.WithInterc, pr)
+			}
+		}
+	}
 }
 
 type truthReader struct {

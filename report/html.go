@@ -9,6 +9,7 @@ import (
 	"io"
 	"math"
 	"slices"
+	"strconv"
 	"strings"
 
 	"github.com/lagstar/lagstar/diagnostics"
@@ -79,6 +80,13 @@ img{max-width:100%}.alarm{background:#b00020;color:#fff;padding:.8em 1em;font-we
 		m.RandomIntercepts, esc(m.Lags), m.ResidualCorrelation, esc(m.PathsOverTime), esc(m.FirstOccasion), esc(m.MeansOverTime))
 	if m.MovingAverage {
 		b.WriteString("<li>Within parts: ARMA(1,1) (moving average on the previous innovation)</li>")
+	}
+	if m.RandomSlopes {
+		sc := make([]string, len(m.TimeScores))
+		for k, v := range m.TimeScores {
+			sc[k] = strconv.FormatFloat(v, 'g', -1, 64)
+		}
+		fmt.Fprintf(&b, "<li>Growth: random intercepts and slopes over the time scores %s (correlated; the means follow the growth line)</li>", esc(strings.Join(sc, ", ")))
 	}
 	fmt.Fprintf(&b, "<li>Sampler: %s, %d warm-up, %s, threshold update %s</li>", count(m.Chains, "chain", "chains"), m.Warmup, count(m.Draws, "draw", "draws"), esc(m.ThresholdUpdate))
 	for _, p := range m.Priors {

@@ -90,6 +90,10 @@ type ModelInfo struct {
 	MeansOverTime       string        `json:"means_over_time"`
 	// MovingAverage: ARMA(1,1) within parts (dynamics.moving_average).
 	MovingAverage bool `json:"moving_average,omitempty"`
+	// RandomSlopes: growth (person_differences.random_slopes) over
+	// TimeScores, one per occasion; MeansOverTime is then "growth line".
+	RandomSlopes bool      `json:"random_slopes,omitempty"`
+	TimeScores   []float64 `json:"time_scores,omitempty"`
 	// MeanAnchor gives, per categorical outcome with free means, the
 	// occasion whose mean is fixed at 0 (the others are differences from it).
 	MeanAnchor      map[string]int `json:"mean_anchor,omitempty"`
@@ -247,6 +251,10 @@ func Build(res *sampler.Result, level float64, version string) *Summary {
 		ThresholdUpdate: string(res.Options.ThresholdUpdate), Notes: append(slices.Clip(l.Panel.Notes), l.Notes...), MovingAverage: l.MA}
 	if l.MA {
 		mi.Priors = append(slices.Clip(mi.Priors), fmt.Sprintf("moving averages: normal(0, %g^2) truncated to (-1, 1)", l.Priors.PathSD))
+	}
+	if l.Growth {
+		mi.RandomSlopes, mi.TimeScores, mi.MeansOverTime = true, l.Time, "growth line"
+		mi.Priors = append(slices.Clip(mi.Priors), sampler.GrowthPriors(l)...)
 	}
 	for j, o := range l.Panel.Outcomes {
 		mi.Outcomes = append(mi.Outcomes, outcomeInfo(l, j))

@@ -62,6 +62,9 @@ func WriteTable(w io.Writer, s *Summary) error {
 		if len(rows) == 0 {
 			continue
 		}
+		if sec == int(catalog.Between) && s.Model.RandomSlopes {
+			title = "Between persons (random intercepts and slopes)"
+		}
 		fmt.Fprintf(&b, "\n%s\n%s", title, head)
 		for _, e := range rows {
 			mark := ""

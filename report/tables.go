@@ -247,6 +247,10 @@ func tableCaption(s *Summary) string {
 	}
 	kind := "Random-intercept cross-lagged model"
 	switch {
+	case m.RandomSlopes && m.Lags == "none":
+		kind = "Growth model"
+	case m.RandomSlopes:
+		kind = "Growth model with autocorrelated residuals"
 	case !m.RandomIntercepts && m.Lags == "none":
 		kind = "Model without carry-over or random intercepts"
 	case !m.RandomIntercepts:

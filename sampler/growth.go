@@ -1,6 +1,7 @@
 package sampler
 
 import (
+	"math"
 	"math/rand/v2"
 
 	"github.com/lagstar/lagstar/internal/dense"
@@ -141,36 +142,14 @@ func (b *GrowthBlock) prepare(st *State) error {
 // s's sum.
 func (b *GrowthBlock) sums(st *State, s, lo, hi int) {
 	l := st.L
-	J, n := l.J, b.n
-	JJ, nn := J*J, n*n
-	e, r, sx, m := b.e[s], b.r[s], b.sx[s], b.m[s]
+	n := b.n
+	nn := n * n
+	sx, m := b.sx[s], b.m[s]
 	clear(sx)
 	for i := lo; i < hi; i++ {
-		off := l.Panel.Offset[i]
-		Ti := l.Panel.Len[i]
-		for c := 0; c < Ti*J; c++ {
-			e[c] = st.Ystar[off+c] - st.Nu[c]
-		}
+		b.personH(st, s, i, false)
 		h := b.h[i*n : (i+1)*n]
-		dense.MulVec(h, b.g[:n*J], e[:J], n, J)
-		for t := 1; t < Ti; t++ {
-			a := st.A[t*JJ : (t+1)*JJ]
-			for q := 0; q < J; q++ {
-				v := e[t*J+q]
-				for k := 0; k < J; k++ {
-					v -= a[q*J+k] * e[(t-1)*J+k]
-				}
-				r[q] = v
-			}
-			g := b.g[t*n*J : (t+1)*n*J]
-			for q := 0; q < n; q++ {
-				v := 0.0
-				for k := 0; k < J; k++ {
-					v += g[q*J+k] * r[k]
-				}
-				h[q] += v
-			}
-		}
+		Ti := l.Panel.Len[i]
 		ch := b.chol[(Ti-1)*nn : Ti*nn]
 		copy(m, h)
 		dense.SolveLower(ch, n, m)
@@ -179,6 +158,48 @@ func (b *GrowthBlock) sums(st *State, s, lo, hi int) {
 			sx[q] += m[q]
 		}
 	}
+}
+
+// personH writes person i's h_i into b.h (with shard s's scratch); with
+// quad it returns sum_t r_t' Sigma_t^{-1} r_t (else 0).
+func (b *GrowthBlock) personH(st *State, s, i int, quad bool) float64 {
+	l := st.L
+	J, n := l.J, b.n
+	JJ := J * J
+	e, r := b.e[s], b.r[s]
+	off := l.Panel.Offset[i]
+	Ti := l.Panel.Len[i]
+	for c := 0; c < Ti*J; c++ {
+		e[c] = st.Ystar[off+c] - st.Nu[c]
+	}
+	h := b.h[i*n : (i+1)*n]
+	dense.MulVec(h, b.g[:n*J], e[:J], n, J)
+	sum := 0.0
+	if quad {
+		sum = dense.Quad(st.SigInv[:JJ], e[:J], J)
+	}
+	for t := 1; t < Ti; t++ {
+		a := st.A[t*JJ : (t+1)*JJ]
+		for q := 0; q < J; q++ {
+			v := e[t*J+q]
+			for k := 0; k < J; k++ {
+				v -= a[q*J+k] * e[(t-1)*J+k]
+			}
+			r[q] = v
+		}
+		g := b.g[t*n*J : (t+1)*n*J]
+		for q := 0; q < n; q++ {
+			v := 0.0
+			for k := 0; k < J; k++ {
+				v += g[q*J+k] * r[k]
+			}
+			h[q] += v
+		}
+		if quad {
+			sum += dense.Quad(st.SigInv[t*JJ:(t+1)*JJ], r, J)
+		}
+	}
+	return sum
 }
 
 // drawMeans draws the free means from their conditional with the factors
@@ -294,3 +315,139 @@ func (gb *GrowthCovBlock) Update(st *State, rng *rand.Rand) error {
 // Writes implements Block.
 func (*GrowthBlock) Writes() Part    { return PartIntercepts }
 func (*GrowthCovBlock) Writes() Part { return PartInterceptCov }
+
+// GrowthInterweaveBlock is the ancillary half of an interweaving strategy
+// (Yu & Meng 2011, JCGS 20:531) for the scales of the growth factors, as
+// InterweaveBlock is for random intercepts: after GrowthCovBlock's
+// centred draw it writes f_i = mu + D eta_i with Psi = D C D, holds eta,
+// C and mu fixed, and draws each scale d_k from its full conditional
+//
+//	p(d | eta, C, mu, y*, rest) ∝ exp(-1/2 d'P d + h'd) prod_k d_k^-(nu+1) exp(-s_k (C^-1)_kk / (2 d_k^2)),
+//
+// the Gaussian part from the innovations r_t - Zt_t mu - Zt_t diag(eta_i) d
+// (GrowthBlock's notation: P = sum_i diag(eta_i) K_i diag(eta_i) and h =
+// sum_i eta_i ∘ (h_i - K_i mu), K_i = sum_t Zt_t' Sigma_t^-1 Zt_t), the rest
+// the inverse-Wishart(nu, S0) prior written in (d, C) with its Jacobian.
+// Each d_k is drawn by slice sampling on log d_k. Binary and ordinal
+// outcomes observed a few times give slope variances that the centred
+// draw alone moves slowly. Reads Ystar, Nu, A, SigInv, B, G, GMean, Psi;
+// writes B, G and Psi.
+type GrowthInterweaveBlock struct {
+	gb             *GrowthBlock // its prepare and workspace
+	d, c, cinv     []float64
+	old, s0        []float64
+	p, h           []float64
+	pp, ph, eta, k [][]float64 // per shard
+}
+
+// NewGrowthInterweaveBlock allocates the block's workspace.
+func NewGrowthInterweaveBlock(l *Layout) *GrowthInterweaveBlock {
+	n := 2 * l.J
+	return &GrowthInterweaveBlock{gb: NewGrowthBlock(l), d: make([]float64, n), c: make([]float64, n*n), cinv: make([]float64, n*n),
+		old: make([]float64, n), s0: make([]float64, n*n), p: make([]float64, n*n), h: make([]float64, n),
+		pp: shardBufs(l, n*n), ph: shardBufs(l, n), eta: shardBufs(l, n), k: shardBufs(l, n*n)}
+}
+
+// Name implements Block.
+func (*GrowthInterweaveBlock) Name() string { return "growth scales (interweaving)" }
+
+// Writes implements Block.
+func (*GrowthInterweaveBlock) Writes() Part { return PartIntercepts | PartInterceptCov }
+
+// Update implements Block.
+func (ib *GrowthInterweaveBlock) Update(st *State, rng *rand.Rand) error {
+	l := st.L
+	J, n := l.J, 2*l.J
+	nn := n * n
+	if err := ib.gb.prepare(st); err != nil {
+		return err
+	}
+	for k := 0; k < n; k++ {
+		ib.d[k] = math.Sqrt(st.Psi[k*n+k])
+	}
+	for a := 0; a < n; a++ {
+		for b := 0; b < n; b++ {
+			ib.c[a*n+b] = st.Psi[a*n+b] / (ib.d[a] * ib.d[b])
+		}
+	}
+	if !dense.Inverse(ib.cinv, ib.c, n, ib.gb.tmp[:nn], ib.gb.tmp[2*nn:]) {
+		return errBlock(ib.Name(), "correlation matrix of the intercepts and slopes is not positive definite")
+	}
+	if len(l.ShardStart) == 2 {
+		ib.sums(st, 0, 0, l.N)
+	} else {
+		forShards(l, func(s, lo, hi int) { ib.sums(st, s, lo, hi) })
+	}
+	clear(ib.p)
+	clear(ib.h)
+	for s := range ib.pp {
+		for k := range ib.p {
+			ib.p[k] += ib.pp[s][k]
+		}
+		for k := range ib.h {
+			ib.h[k] += ib.ph[s][k]
+		}
+	}
+	nu := float64(n) + l.Priors.RIDfExtra
+	growthPriorScale(ib.s0, l, l.Priors)
+	copy(ib.old, ib.d)
+	for k := 0; k < n; k++ {
+		lin := ib.h[k]
+		for q := 0; q < n; q++ {
+			if q != k {
+				lin -= ib.p[k*n+q] * ib.d[q]
+			}
+		}
+		pkk, sc := ib.p[k*n+k], ib.s0[k*n+k]*ib.cinv[k*n+k]
+		logf := func(u float64) float64 { // density of u = log d_k
+			x := math.Exp(u)
+			return -0.5*pkk*x*x + lin*x - (nu+1)*u - sc/(2*x*x) + u
+		}
+		ib.d[k] = math.Exp(sliceDraw(rng, math.Log(ib.d[k]), logf, 0.5))
+	}
+	for i := 0; i < l.N; i++ {
+		for j := 0; j < J; j++ {
+			st.B[i*J+j] = st.GMean[j] + (st.B[i*J+j]-st.GMean[j])*ib.d[j]/ib.old[j]
+			st.G[i*J+j] = st.GMean[J+j] + (st.G[i*J+j]-st.GMean[J+j])*ib.d[J+j]/ib.old[J+j]
+		}
+	}
+	for a := 0; a < n; a++ {
+		for b := 0; b < n; b++ {
+			st.Psi[a*n+b] = ib.d[a] * ib.c[a*n+b] * ib.d[b]
+		}
+	}
+	return nil
+}
+
+// sums adds the terms of P and h of persons lo..hi-1 into shard s's
+// partial sums.
+func (ib *GrowthInterweaveBlock) sums(st *State, s, lo, hi int) {
+	l := st.L
+	J, n := l.J, 2*l.J
+	nn := n * n
+	gb := ib.gb
+	pp, ph, eta, kk := ib.pp[s], ib.ph[s], ib.eta[s], ib.k[s]
+	clear(pp)
+	clear(ph)
+	gb.sums(st, s, lo, hi) // h_i into gb.h
+	for i := lo; i < hi; i++ {
+		L := l.Panel.Len[i]
+		cum := gb.cum[(L-1)*nn : L*nn]
+		for k := range kk {
+			kk[k] = cum[k] - gb.psiIn[k]
+		}
+		for j := 0; j < J; j++ {
+			eta[j] = (st.B[i*J+j] - st.GMean[j]) / ib.d[j]
+			eta[J+j] = (st.G[i*J+j] - st.GMean[J+j]) / ib.d[J+j]
+		}
+		h := gb.h[i*n : (i+1)*n]
+		for a := 0; a < n; a++ {
+			v := h[a]
+			for b := 0; b < n; b++ {
+				v -= kk[a*n+b] * st.GMean[b]
+				pp[a*n+b] += eta[a] * kk[a*n+b] * eta[b]
+			}
+			ph[a] += eta[a] * v
+		}
+	}
+}

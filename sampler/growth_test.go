@@ -19,7 +19,9 @@ func growthTruthValues(tr Truth, l *Layout) map[string]float64 {
 	p := tr.GrowthPsi
 	corr := func(r, c int) float64 { return p[r*n+c] / math.Sqrt(p[r*n+r]*p[c*n+c]) }
 	for j := 0; j < J; j++ {
-		out[fmt.Sprintf("intercept_mean[%s]", names[j])] = tr.GrowthMean[j]
+		if !l.Cat[j] {
+			out[fmt.Sprintf("intercept_mean[%s]", names[j])] = tr.GrowthMean[j]
+		}
 		out[fmt.Sprintf("slope_mean[%s]", names[j])] = tr.GrowthMean[J+j]
 		out[fmt.Sprintf("ri_variance[%s]", names[j])] = p[j*n+j]
 		out[fmt.Sprintf("slope_variance[%s]", names[j])] = p[(J+j)*n+J+j]
@@ -65,22 +67,22 @@ dynamics: {lags: own}
 			n: 800, periods: 6,
 		},
 		{
-			name: "two continuous, cross-lagged residuals",
+			name: "ordinal and continuous, cross-lagged residuals",
 			yaml: `
 data: {csv: x.csv, person: person, occasion: occasion}
-outcomes: [{name: a, type: continuous}, {name: b, type: continuous}]
-person_differences: {random_slopes: true}
+outcomes: [{name: a, type: ordinal, categories: 5, lowest: 0}, {name: b, type: continuous}]
+person_differences: {random_slopes: true, time_scores: occasion_values}
 dynamics: {lags: cross}
 `,
-			tr: Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Continuous, model.Continuous}, Tau: [][]float64{nil, nil},
+			tr: Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Ordinal, model.Continuous}, Tau: [][]float64{{-1, -0.3, 0.4, 1.1}, nil},
 				GrowthPsi: []float64{
-					1.0, 0.3, -0.05, 0.02,
+					0.7, 0.3, -0.05, 0.02,
 					0.3, 0.8, 0.03, -0.04,
 					-0.05, 0.03, 0.06, 0.01,
 					0.02, -0.04, 0.01, 0.04},
-				GrowthMean: []float64{2, -1, 0.3, 0.1},
-				A:          []float64{0.4, 0.1, -0.15, 0.3}, Sigma: []float64{1, 0.3, 0.3, 0.8}, Sigma1: []float64{1.2, 0.2, 0.2, 1}, Missing: 0.05},
-			n: 300, periods: 6,
+				GrowthMean: []float64{0, -1, 0.2, 0.1},
+				A:          []float64{0.3, 0.1, -0.15, 0.3}, Sigma: []float64{1, 0.3, 0.3, 0.8}, Sigma1: []float64{1, 0.2, 0.2, 1}, Missing: 0.05},
+			n: 500, periods: 6,
 		},
 	}
 	for ci, c := range cases {
