@@ -236,6 +236,12 @@ func TestSpecErrors(t *testing.T) {
 		{"data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\nwithin: {lags: own}\n", `unknown key: "within" (this key is now called "dynamics")`},
 		{"data: {file: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\n", `unknown key in data: "file" (this key is now called "csv")`},
 		{"data: {csv: d.csv, person: p, occasion: t, missing: [NA]}\noutcomes: [{name: a, type: binary}]\n", `unknown key in data: "missing" (this key is now called "missing_codes")`},
+		// Growth.
+		{"data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\nperson_differences: {random_intercepts: false, random_slopes: true}\n", "m.yaml:3: person_differences.random_slopes: true needs random_intercepts: true"},
+		{"data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\nperson_differences: {random_slopes: true}\nmeans: {over_time: free}\n", "m.yaml:4: means: not used with person_differences.random_slopes: true"},
+		{"data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\nperson_differences: {time_scores: [0, 1]}\n", "person_differences.time_scores: only used with person_differences.random_slopes: true"},
+		{"data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\nperson_differences: {random_slopes: true, time_scores: yearly}\n", `person_differences.time_scores: expected one of equally_spaced, occasion_values, got "yearly"`},
+		{"data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\nperson_differences: {random_slopes: true, time_scores: [0, one, 2]}\n", `person_differences.time_scores: expected a number (at most 1e6 in size), got "one"`},
 	}
 	for _, c := range cases {
 		_, err := ParseSpec("m.yaml", []byte(c.text))
@@ -252,6 +258,7 @@ func TestIdentifyRules(t *testing.T) {
 	base := "data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\n"
 	two := "p,t,a\n1,1,0\n1,2,1\n2,1,1\n2,2,0\n"
 	three := "p,t,a\n1,1,0\n1,2,1\n1,3,1\n2,1,1\n2,2,0\n2,3,0\n"
+	four := "p,t,a\n1,1,0\n1,2,1\n1,3,1\n1,4,0\n2,1,1\n2,2,0\n2,3,0\n2,4,1\n"
 	cases := []struct {
 		within, data, want string
 	}{
@@ -271,6 +278,18 @@ func TestIdentifyRules(t *testing.T) {
 		// Two answers each, never at consecutive occasions.
 		{"dynamics: {lags: own}\nperson_differences: {random_intercepts: false}", "p,t,a\n1,1,0\n1,3,1\n2,2,1\n2,4,0\n", "two consecutive occasions"},
 		{"dynamics: {lags: none}\nperson_differences: {random_intercepts: true}", "p,t,a\n1,1,0\n1,3,1\n2,2,1\n2,4,0\n", ""},
+		// Growth.
+		{"dynamics: {lags: none}\nperson_differences: {random_slopes: true}", three, ""},
+		{"dynamics: {lags: none}\nperson_differences: {random_slopes: true}", two, "random_slopes: true with dynamics.lags: none needs at least 3 occasions (the data have 2)"},
+		{"dynamics: {lags: own}\nperson_differences: {random_slopes: true}", three, "needs at least 4 occasions (the data have 3)"},
+		{"dynamics: {lags: own}\nperson_differences: {random_slopes: true}", four, ""},
+		{"dynamics: {lags: own, over_time: free}\nperson_differences: {random_slopes: true}", four, "needs at least 5 occasions (the data have 4)"},
+		{"dynamics: {lags: own, moving_average: true}\nperson_differences: {random_slopes: true}", four, "random_slopes: true is not available with dynamics.moving_average"},
+		{"dynamics: {lags: own}\nperson_differences: {random_slopes: true}\nsampler: {path_moves: true}", four, "path_moves: true is not available with person_differences.random_slopes"},
+		{"dynamics: {lags: own}\nperson_differences: {random_slopes: true, time_scores: [0, 1, 3]}", four, "time_scores: 3 scores given for 4 occasions"},
+		{"dynamics: {lags: own}\nperson_differences: {random_slopes: true, time_scores: [2, 2, 2, 2]}", four, "a slope needs scores that differ"},
+		{"dynamics: {lags: own}\nperson_differences: {random_slopes: true, time_scores: [0, 1, 3, 6]}", four, ""},
+		{"dynamics: {lags: own}\nperson_differences: {random_slopes: true, time_scores: occasion_values}", four, ""},
 	}
 	for _, c := range cases {
 		sp := mustSpec(t, base+c.within+"\n")

@@ -36,6 +36,10 @@ sampler:
   until_converged: false
 `
 
+// growthModel is goodModel with random slopes (and so without a means
+// section).
+var growthModel = strings.Replace(strings.Replace(goodModel, "means:\n  over_time: equal\n", "", 1), "dynamics:", "person_differences:\n  random_slopes: true\ndynamics:", 1)
+
 func goodData() string {
 	var b strings.Builder
 	b.WriteString("id,wave,mood,pain\n")
@@ -157,6 +161,12 @@ func TestBadInput(t *testing.T) {
 			[]string{"model.yaml", "first_occasion: stationary needs dynamics.over_time: equal"}},
 		{"ARMA with a stationary first occasion", strings.Replace(goodModel, "lags: cross", "lags: cross\n  moving_average: true\n  first_occasion: stationary", 1), data, nil,
 			[]string{"model.yaml", "dynamics.moving_average: true needs dynamics.first_occasion: free"}},
+		{"growth with a means section", strings.Replace(goodModel, "dynamics:", "person_differences:\n  random_slopes: true\ndynamics:", 1), data, nil,
+			[]string{"model.yaml", "means: not used with person_differences.random_slopes: true"}},
+		{"growth with a moving average", strings.Replace(growthModel, "lags: cross", "lags: cross\n  moving_average: true", 1), data, nil,
+			[]string{"model.yaml", "random_slopes: true is not available with dynamics.moving_average: true"}},
+		{"growth time scores not one per occasion", strings.Replace(growthModel, "random_slopes: true", "random_slopes: true\n  time_scores: [0, 1, 2]", 1), data, nil,
+			[]string{"model.yaml", "person_differences.time_scores: 3 scores given for 4 occasions"}},
 		{"unidentified: cross-lags with one outcome", strings.Replace(goodModel, "  - name: pain\n    type: binary\n", "", 1), data, nil,
 			[]string{"dynamics.lags: cross needs at least two outcomes"}},
 		{"bad flag value", goodModel, data, []string{"--format", "xml"},
@@ -282,6 +292,30 @@ func TestSimulateThenFit(t *testing.T) {
 		if code != 2 || !strings.Contains(stderr, c.want) || !strings.Contains(stderr, "truth.yaml") {
 			t.Errorf("truth file with %q: exit %d, stderr %s; want exit 2 naming truth.yaml and %q", c.extra, code, stderr, c.want)
 		}
+	}
+	// Growth in truth files: refused without the model key, missing
+	// slope variances, or occasion means; then a simulate run.
+	gModel := filepath.Join(dir, "growth.yaml")
+	os.WriteFile(gModel, []byte(strings.Replace(string(modelRaw), "dynamics:", "person_differences:\n  random_slopes: true\ndynamics:", 1)), 0o644)
+	if raw, _ := os.ReadFile(gModel); strings.Contains(string(raw), "means:") {
+		os.WriteFile(gModel, []byte(strings.Replace(string(raw), "means:\n  over_time: equal\n", "", 1)), 0o644)
+	}
+	slopes := "random_slopes: {variances: {mood: 0.05, pain: 0.04}, means: {mood: 0.1}, with_intercepts: [{intercept: mood, slope: pain, value: 0.2}]}\n"
+	for _, c := range []struct{ model, extra, want string }{
+		{mp, slopes, "random_slopes: the model file has no person_differences.random_slopes: true"},
+		{gModel, "", "random_slopes: the model file has person_differences.random_slopes: true"},
+		{gModel, "random_slopes: {variances: {mood: 0.05}}\n", `random_slopes.variances: outcome "pain" needs a slope variance`},
+		{gModel, slopes + "means: {mood: [0, 0.1, 0.2, 0.3, 0.4]}\n", "means.mood: with random slopes the means follow the growth line"},
+	} {
+		os.WriteFile(truth, []byte(truthText+c.extra), 0o644)
+		code, _, stderr = runCLI("simulate", c.model, "--truth", truth, "--occasions", "5", "--out", filepath.Join(dir, "x.csv"))
+		if code != 2 || !strings.Contains(stderr, c.want) || !strings.Contains(stderr, "truth.yaml") {
+			t.Errorf("growth truth file with %q: exit %d, stderr %s; want exit 2 naming truth.yaml and %q", c.extra, code, stderr, c.want)
+		}
+	}
+	os.WriteFile(truth, []byte(truthText+slopes), 0o644)
+	if code, _, stderr = runCLI("simulate", gModel, "--truth", truth, "--persons", "20", "--occasions", "5", "--out", filepath.Join(dir, "g.csv")); code != 0 {
+		t.Errorf("simulate with growth: exit %d: %s", code, stderr)
 	}
 	os.WriteFile(truth, []byte(truthText+"moving_averages: {mood: -0.3, pain: 0.2}\n"), 0o644)
 	if code, _, stderr = runCLI("simulate", maModel, "--truth", truth, "--persons", "20", "--occasions", "5", "--out", filepath.Join(dir, "ma.csv")); code != 0 {
