@@ -129,3 +129,82 @@ func TestREADMEMovingAverageExample(t *testing.T) {
 		t.Errorf("compare does not prefer the ARMA(1,1) model by more than 2 se: %+v", res)
 	}
 }
+
+// TestREADMEGrowthExample runs the README's invented wrist-pain panel: it
+// simulates the panel from the README's truth file, fits the README's
+// growth model and the same model without random slopes (whose means are
+// then free over time), and requires the growth fit's intervals to cover
+// the true mean slope and slope variance and compare to prefer the growth
+// model by more than two standard errors of the elpd difference.
+func TestREADMEGrowthExample(t *testing.T) {
+	if testing.Short() {
+		t.Skip("fits skipped in -short mode")
+	}
+	raw, err := os.ReadFile("README.md")
+	if err != nil {
+		t.Fatal(err)
+	}
+	var modelText, truthText string
+	for _, b := range regexp.MustCompile("(?s)```yaml\n(.*?)```").FindAllStringSubmatch(string(raw), -1) {
+		switch {
+		case strings.HasPrefix(b[1], "data:") && strings.Contains(b[1], "random_slopes: true"):
+			modelText = b[1]
+		case strings.HasPrefix(b[1], "# truth for the invented apprentices"):
+			truthText = b[1]
+		}
+	}
+	if modelText == "" || truthText == "" {
+		t.Fatal("README: no growth example model file and truth file")
+	}
+	dir := t.TempDir()
+	write := func(name, text string) string {
+		p := filepath.Join(dir, name)
+		if err := os.WriteFile(p, []byte(text), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	growth := write("wrists.yaml", modelText)
+	riText := strings.NewReplacer("  random_slopes: true\n", "", "  time_scores: occasion_values\n", "").Replace(modelText)
+	ri := write("wrists-ri.yaml", riText)
+	truth := write("wrists-truth.yaml", truthText)
+	if _, err := fit.Simulate(fit.SimulateOptions{ModelPath: growth, TruthPath: truth, Persons: 900, Occasions: 6, Seed: 4,
+		Out: filepath.Join(dir, "wrists.csv")}); err != nil {
+		t.Fatal(err)
+	}
+	runs := []string{filepath.Join(dir, "growth"), filepath.Join(dir, "ri")}
+	for k, m := range []string{growth, ri} {
+		out, err := fit.Fit(context.Background(), fit.Options{ModelPath: m, OutDir: runs[k], Chains: 2, Warmup: 1000, Draws: 1500,
+			FixedLength: true, Seed: 4, SeedSet: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if k > 0 {
+			continue
+		}
+		want := map[string]float64{"slope_mean[wrist_pain]": -0.15, "slope_variance[wrist_pain]": 0.12}
+		for _, p := range out.Summary.Parameters {
+			if v, ok := want[p.Name]; ok {
+				lo, hi := float64(p.Lower), float64(p.Upper)
+				t.Logf("%s: mean %.3f, interval [%.3f, %.3f] (truth %g)", p.Name, float64(p.Mean), lo, hi, v)
+				if !(lo <= v && v <= hi) {
+					t.Errorf("%s: interval [%.3f, %.3f] misses the truth %g", p.Name, lo, hi, v)
+				}
+				delete(want, p.Name)
+			}
+		}
+		if len(want) > 0 {
+			t.Errorf("growth fit reports no %v", want)
+		}
+	}
+	res, err := fit.Compare(fit.CompareOptions{RunDirs: runs, Draws: 100, GHKPoints: 200})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, r := range res {
+		t.Logf("%s: elpd_loo %.1f (se %.1f), difference %.1f (se %.1f)", r.Name, r.ELPDLoo, r.SELoo, r.DiffLoo, r.SEDiff)
+	}
+	if !strings.Contains(res[0].Name, "growth") || res[1].DiffLoo > -2*res[1].SEDiff {
+		t.Errorf("compare does not prefer the growth model by more than 2 se: %+v", res)
+	}
+}

@@ -16,6 +16,7 @@ const (
 	pairOB = `[{name: mood, type: ordinal, categories: 4, lowest: 1}, {name: ache, type: binary}]`
 	ri     = "random_intercepts: true"
 	noRI   = "random_intercepts: false"
+	growth = "random_intercepts: true, random_slopes: true"
 	cross  = "lags: cross, residual_correlation: true, over_time: equal, first_occasion: free"
 	eqM    = "over_time: equal"
 )
@@ -52,5 +53,10 @@ func Scenarios() []Scenario {
 		two("moving average, paths free over time", ri, "lags: cross, residual_correlation: true, over_time: free, moving_average: true", eqM, 0.05),
 		two("moving average without carry-over", ri, "lags: none, residual_correlation: true, moving_average: true", eqM, 0.05),
 		{Name: "moving average, continuous, no random intercepts", Model: base("[{name: y, type: continuous}]", noRI, "lags: own, moving_average: true", "over_time: free"), Persons: 40, Times: 6, Missing: 0.05},
+		two("growth, cross-lagged residuals", growth, cross, "", 0.05),
+		two("growth, paths free over time", growth, "lags: cross, residual_correlation: true, over_time: free", "", 0.05),
+		two("growth without carry-over, uneven time scores", growth+", time_scores: [0, 1, 2, 4, 6, 9]", "lags: none, residual_correlation: true", "", 0.05),
+		{Name: "growth, binary, AR(1) residuals", Model: base("[{name: y, type: binary}]", growth, "lags: own", ""), Persons: 60, Times: 6, Missing: 0.05},
+		{Name: "growth, continuous, AR(1) residuals", Model: base("[{name: y, type: continuous}]", growth, "lags: own", ""), Persons: 40, Times: 6, Missing: 0.05},
 	}
 }
