@@ -170,3 +170,49 @@ func BenchmarkSweepMovingAverage(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkSweepGrowth times one sweep of a panel fitted with random
+// intercepts only and with growth (random intercepts and slopes), both
+// with carry-over (docs/performance.md).
+func BenchmarkSweepGrowth(b *testing.B) {
+	cases := []struct {
+		name, outcomes, lags string
+		tr                   Truth
+		n, t                 int
+	}{
+		{"binary", "[{name: y, type: binary}]", "own",
+			Truth{Names: []string{"y"}, Types: []model.OutcomeType{model.Binary}, Tau: [][]float64{{0.3}},
+				GrowthPsi: []float64{0.6, -0.05, -0.05, 0.1}, GrowthMean: []float64{0, -0.15}, A: []float64{0.3}, Sigma: []float64{1}, Sigma1: []float64{1}, Missing: 0.05}, 900, 6},
+		{"binary pair", "[{name: a, type: binary}, {name: b, type: binary}]", "cross",
+			Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Binary, model.Binary}, Tau: [][]float64{{0.3}, {-0.2}},
+				GrowthPsi: []float64{0.6, 0.2, 0, 0, 0.2, 0.5, 0, 0, 0, 0, 0.05, 0.01, 0, 0, 0.01, 0.05}, GrowthMean: []float64{0, 0, -0.1, 0.1},
+				A: []float64{0.4, 0.1, 0.1, 0.3}, Sigma: []float64{1, 0.2, 0.2, 1}, Sigma1: []float64{1, 0.2, 0.2, 1}, Missing: 0.05}, 1200, 5},
+	}
+	for _, c := range cases {
+		csv, err := Simulate(c.tr, c.n, c.t, newRand(3))
+		if err != nil {
+			b.Fatal(err)
+		}
+		for _, growth := range []bool{false, true} {
+			b.Run(fmt.Sprintf("%s/growth=%v", c.name, growth), func(b *testing.B) {
+				means := "means: {over_time: free}\n"
+				if growth {
+					means = ""
+				}
+				l := layoutFrom(b, fmt.Sprintf("data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: %s\nperson_differences: {random_slopes: %v}\ndynamics: {lags: %s}\n%s", c.outcomes, growth, c.lags, means), csv)
+				rng := newRand(2)
+				st := NewState(l, rng)
+				blocks := Blocks(l, model.ThresholdJoint)
+				for range 20 {
+					Sweep(st, blocks, rng)
+				}
+				b.ReportAllocs()
+				for b.Loop() {
+					if err := Sweep(st, blocks, rng); err != nil {
+						b.Fatal(err)
+					}
+				}
+			})
+		}
+	}
+}

@@ -317,39 +317,50 @@ func (*GrowthBlock) Writes() Part    { return PartIntercepts }
 func (*GrowthCovBlock) Writes() Part { return PartInterceptCov }
 
 // GrowthInterweaveBlock is the ancillary half of an interweaving strategy
-// (Yu & Meng 2011, JCGS 20:531) for the scales of the growth factors, as
-// InterweaveBlock is for random intercepts: after GrowthCovBlock's
-// centred draw it writes f_i = mu + D eta_i with Psi = D C D, holds eta,
-// C and mu fixed, and draws each scale d_k from its full conditional
-//
-//	p(d | eta, C, mu, y*, rest) ∝ exp(-1/2 d'P d + h'd) prod_k d_k^-(nu+1) exp(-s_k (C^-1)_kk / (2 d_k^2)),
-//
-// the Gaussian part from the innovations r_t - Zt_t mu - Zt_t diag(eta_i) d
-// (GrowthBlock's notation: P = sum_i diag(eta_i) K_i diag(eta_i) and h =
-// sum_i eta_i ∘ (h_i - K_i mu), K_i = sum_t Zt_t' Sigma_t^-1 Zt_t), the rest
-// the inverse-Wishart(nu, S0) prior written in (d, C) with its Jacobian.
-// Each d_k is drawn by slice sampling on log d_k. Binary and ordinal
-// outcomes observed a few times give slope variances that the centred
-// draw alone moves slowly. Reads Ystar, Nu, A, SigInv, B, G, GMean, Psi;
-// writes B, G and Psi.
+// (Yu & Meng 2011, JCGS 20:531) for the covariance of the growth factors:
+// after GrowthCovBlock's centred draw it writes f_i = mu + L eta_i with L
+// the lower Cholesky factor of Psi, holds eta and mu fixed, and draws
+// every element of L in turn from its full conditional in that
+// non-centred parameterization. The factors enter the innovations
+// linearly, r_t - Zt_t mu - Zt_t L eta_i (GrowthBlock's notation), so the
+// likelihood is Gaussian in the elements l of L, exp(-1/2 l'P l + h'l)
+// with P_(ab),(cd) = sum_i eta_ib (K_i)_ac eta_id and h_(ab) = sum_i eta_ib
+// (h_i - K_i mu)_a, K_i = sum_t Zt_t' Sigma_t^-1 Zt_t; the prior is the
+// inverse-Wishart(nu, S0) density of L L' times the Jacobian of the
+// Cholesky map, 2^n prod_k L_kk^(n-k+1) (k = 1..n). Each element is drawn
+// by slice sampling (Neal 2003), the diagonal ones on log L_kk. Unlike
+// moving the scales alone, this also moves the intercept-slope
+// covariances, which the intercept at the first time score ties tightly
+// to the variances when persons' lines are weakly determined (binary and
+// ordinal outcomes over a few waves). Reads Ystar, Nu, A, SigInv, B, G,
+// GMean, Psi; writes B, G and Psi.
 type GrowthInterweaveBlock struct {
-	gb             *GrowthBlock // its prepare and workspace
-	d, c, cinv     []float64
-	old, s0        []float64
-	p, h           []float64
-	pp, ph, eta, k [][]float64 // per shard
+	gb           *GrowthBlock // its prepare and workspace
+	el           [][2]int     // the elements (a, b), a >= b, of L
+	lc, old, inv []float64
+	s0           []float64
+	p, h         []float64
+	pp, ph, eta  [][]float64 // per shard
+	kk, v        [][]float64
 }
 
 // NewGrowthInterweaveBlock allocates the block's workspace.
 func NewGrowthInterweaveBlock(l *Layout) *GrowthInterweaveBlock {
 	n := 2 * l.J
-	return &GrowthInterweaveBlock{gb: NewGrowthBlock(l), d: make([]float64, n), c: make([]float64, n*n), cinv: make([]float64, n*n),
-		old: make([]float64, n), s0: make([]float64, n*n), p: make([]float64, n*n), h: make([]float64, n),
-		pp: shardBufs(l, n*n), ph: shardBufs(l, n), eta: shardBufs(l, n), k: shardBufs(l, n*n)}
+	ib := &GrowthInterweaveBlock{gb: NewGrowthBlock(l), lc: make([]float64, n*n), old: make([]float64, n*n), inv: make([]float64, n*n),
+		s0: make([]float64, n*n), eta: shardBufs(l, n), kk: shardBufs(l, n*n), v: shardBufs(l, n)}
+	for a := 0; a < n; a++ {
+		for b := 0; b <= a; b++ {
+			ib.el = append(ib.el, [2]int{a, b})
+		}
+	}
+	m := len(ib.el)
+	ib.p, ib.h, ib.pp, ib.ph = make([]float64, m*m), make([]float64, m), shardBufs(l, m*m), shardBufs(l, m)
+	return ib
 }
 
 // Name implements Block.
-func (*GrowthInterweaveBlock) Name() string { return "growth scales (interweaving)" }
+func (*GrowthInterweaveBlock) Name() string { return "growth covariance (interweaving)" }
 
 // Writes implements Block.
 func (*GrowthInterweaveBlock) Writes() Part { return PartIntercepts | PartInterceptCov }
@@ -358,20 +369,13 @@ func (*GrowthInterweaveBlock) Writes() Part { return PartIntercepts | PartInterc
 func (ib *GrowthInterweaveBlock) Update(st *State, rng *rand.Rand) error {
 	l := st.L
 	J, n := l.J, 2*l.J
-	nn := n * n
+	m := len(ib.el)
 	if err := ib.gb.prepare(st); err != nil {
 		return err
 	}
-	for k := 0; k < n; k++ {
-		ib.d[k] = math.Sqrt(st.Psi[k*n+k])
-	}
-	for a := 0; a < n; a++ {
-		for b := 0; b < n; b++ {
-			ib.c[a*n+b] = st.Psi[a*n+b] / (ib.d[a] * ib.d[b])
-		}
-	}
-	if !dense.Inverse(ib.cinv, ib.c, n, ib.gb.tmp[:nn], ib.gb.tmp[2*nn:]) {
-		return errBlock(ib.Name(), "correlation matrix of the intercepts and slopes is not positive definite")
+	copy(ib.lc, st.Psi)
+	if !dense.Cholesky(ib.lc, n) {
+		return errBlock(ib.Name(), "covariance of the intercepts and slopes is not positive definite")
 	}
 	if len(l.ShardStart) == 2 {
 		ib.sums(st, 0, 0, l.N)
@@ -390,33 +394,86 @@ func (ib *GrowthInterweaveBlock) Update(st *State, rng *rand.Rand) error {
 	}
 	nu := float64(n) + l.Priors.RIDfExtra
 	growthPriorScale(ib.s0, l, l.Priors)
-	copy(ib.old, ib.d)
-	for k := 0; k < n; k++ {
-		lin := ib.h[k]
-		for q := 0; q < n; q++ {
-			if q != k {
-				lin -= ib.p[k*n+q] * ib.d[q]
+	copy(ib.old, ib.lc)
+	for e, ab := range ib.el {
+		a, b := ab[0], ab[1]
+		lin := ib.h[e]
+		for q, cd := range ib.el {
+			if q != e {
+				lin -= ib.p[e*m+q] * ib.lc[cd[0]*n+cd[1]]
 			}
 		}
-		pkk, sc := ib.p[k*n+k], ib.s0[k*n+k]*ib.cinv[k*n+k]
-		logf := func(u float64) float64 { // density of u = log d_k
-			x := math.Exp(u)
-			return -0.5*pkk*x*x + lin*x - (nu+1)*u - sc/(2*x*x) + u
+		pee := ib.p[e*m+e]
+		at := func(x float64) float64 { // log conditional at L_ab = x
+			ib.lc[a*n+b] = x
+			return -0.5*pee*x*x + lin*x + ib.logPrior(n, nu)
 		}
-		ib.d[k] = math.Exp(sliceDraw(rng, math.Log(ib.d[k]), logf, 0.5))
+		if a == b {
+			u := sliceDraw(rng, math.Log(ib.lc[a*n+a]), func(u float64) float64 { return at(math.Exp(u)) + u }, 0.5)
+			ib.lc[a*n+a] = math.Exp(u)
+		} else {
+			sd := math.Sqrt(st.Psi[a*n+a]) + 1e-3
+			ib.lc[a*n+b] = sliceDraw(rng, ib.old[a*n+b], at, 0.5*sd)
+		}
 	}
+	// f_i = mu + L_new L_old^-1 (f_i - mu).
+	eta := ib.eta[0]
 	for i := 0; i < l.N; i++ {
 		for j := 0; j < J; j++ {
-			st.B[i*J+j] = st.GMean[j] + (st.B[i*J+j]-st.GMean[j])*ib.d[j]/ib.old[j]
-			st.G[i*J+j] = st.GMean[J+j] + (st.G[i*J+j]-st.GMean[J+j])*ib.d[J+j]/ib.old[J+j]
+			eta[j] = st.B[i*J+j] - st.GMean[j]
+			eta[J+j] = st.G[i*J+j] - st.GMean[J+j]
+		}
+		dense.SolveLower(ib.old, n, eta)
+		for r := 0; r < n; r++ {
+			x := st.GMean[r]
+			for c := 0; c <= r; c++ {
+				x += ib.lc[r*n+c] * eta[c]
+			}
+			if r < J {
+				st.B[i*J+r] = x
+			} else {
+				st.G[i*J+r-J] = x
+			}
 		}
 	}
-	for a := 0; a < n; a++ {
-		for b := 0; b < n; b++ {
-			st.Psi[a*n+b] = ib.d[a] * ib.c[a*n+b] * ib.d[b]
-		}
-	}
+	dense.MulBT(st.Psi, ib.lc, ib.lc, n, n, n)
 	return nil
+}
+
+// logPrior returns the log prior density of the current L (ib.lc): the
+// inverse-Wishart(nu, S0) density of L L' with the Cholesky Jacobian, up
+// to a constant; -Inf outside positive diagonals.
+func (ib *GrowthInterweaveBlock) logPrior(n int, nu float64) float64 {
+	lp := 0.0
+	for k := 0; k < n; k++ {
+		d := ib.lc[k*n+k]
+		if !(d > 0) {
+			return math.Inf(-1)
+		}
+		// |Psi|^-(nu+n+1)/2 = prod d^-(nu+n+1); Jacobian d^(n-k) (k from 0).
+		lp += (float64(n-k) - (nu + float64(n) + 1)) * math.Log(d)
+	}
+	// tr(S0 Psi^-1) = sum_k s_k sum_j (L^-1)_jk^2 for diagonal S0.
+	inv := ib.inv
+	for c := 0; c < n; c++ {
+		col := inv[c*n : (c+1)*n] // column c of L^-1, stored as a row
+		for r := 0; r < n; r++ {
+			x := 0.0
+			if r == c {
+				x = 1
+			}
+			for k := 0; k < r; k++ {
+				x -= ib.lc[r*n+k] * col[k]
+			}
+			col[r] = x / ib.lc[r*n+r]
+		}
+		tr := 0.0
+		for _, x := range col {
+			tr += x * x
+		}
+		lp -= 0.5 * ib.s0[c*n+c] * tr
+	}
+	return lp
 }
 
 // sums adds the terms of P and h of persons lo..hi-1 into shard s's
@@ -424,9 +481,9 @@ func (ib *GrowthInterweaveBlock) Update(st *State, rng *rand.Rand) error {
 func (ib *GrowthInterweaveBlock) sums(st *State, s, lo, hi int) {
 	l := st.L
 	J, n := l.J, 2*l.J
-	nn := n * n
+	nn, m := n*n, len(ib.el)
 	gb := ib.gb
-	pp, ph, eta, kk := ib.pp[s], ib.ph[s], ib.eta[s], ib.k[s]
+	pp, ph, eta, kk, v := ib.pp[s], ib.ph[s], ib.eta[s], ib.kk[s], ib.v[s]
 	clear(pp)
 	clear(ph)
 	gb.sums(st, s, lo, hi) // h_i into gb.h
@@ -437,17 +494,23 @@ func (ib *GrowthInterweaveBlock) sums(st *State, s, lo, hi int) {
 			kk[k] = cum[k] - gb.psiIn[k]
 		}
 		for j := 0; j < J; j++ {
-			eta[j] = (st.B[i*J+j] - st.GMean[j]) / ib.d[j]
-			eta[J+j] = (st.G[i*J+j] - st.GMean[J+j]) / ib.d[J+j]
+			eta[j] = st.B[i*J+j] - st.GMean[j]
+			eta[J+j] = st.G[i*J+j] - st.GMean[J+j]
 		}
+		dense.SolveLower(ib.lc, n, eta)
 		h := gb.h[i*n : (i+1)*n]
 		for a := 0; a < n; a++ {
-			v := h[a]
+			x := h[a]
 			for b := 0; b < n; b++ {
-				v -= kk[a*n+b] * st.GMean[b]
-				pp[a*n+b] += eta[a] * kk[a*n+b] * eta[b]
+				x -= kk[a*n+b] * st.GMean[b]
 			}
-			ph[a] += eta[a] * v
+			v[a] = x
+		}
+		for e, ab := range ib.el {
+			ph[e] += eta[ab[1]] * v[ab[0]]
+			for q, cd := range ib.el {
+				pp[e*m+q] += eta[ab[1]] * kk[ab[0]*n+cd[0]] * eta[cd[1]]
+			}
 		}
 	}
 }
