@@ -54,8 +54,8 @@ func TestComparePrefersTrueCrossLag(t *testing.T) {
 		t.Fatal(err)
 	}
 	base := "data: {csv: d.csv, person: person, occasion: occasion}\noutcomes: [{name: a, type: binary}, {name: b, type: binary}]\nmeans: {over_time: equal}\n"
-	cross := fitLL(t, base+"dynamics: {lags: cross}\n", csv, 150, 300)
-	own := fitLL(t, base+"dynamics: {lags: own}\n", csv, 150, 300)
+	cross := fitLL(t, base+"dynamics: {lags: cross}\n", csv, 100, 200)
+	own := fitLL(t, base+"dynamics: {lags: own}\n", csv, 100, 200)
 	rs, err := Compare([]ModelFit{own, cross})
 	if err != nil {
 		t.Fatal(err)
