@@ -68,30 +68,9 @@ func TestREADMEMovingAverageExample(t *testing.T) {
 	if testing.Short() {
 		t.Skip("fits skipped in -short mode")
 	}
-	raw, err := os.ReadFile("README.md")
-	if err != nil {
-		t.Fatal(err)
-	}
-	var modelText, truthText string
-	for _, b := range regexp.MustCompile("(?s)```yaml\n(.*?)```").FindAllStringSubmatch(string(raw), -1) {
-		switch {
-		case strings.HasPrefix(b[1], "data:") && strings.Contains(b[1], "moving_average: true"):
-			modelText = b[1]
-		case strings.HasPrefix(b[1], "# truth for the invented tension diary"):
-			truthText = b[1]
-		}
-	}
-	if modelText == "" || truthText == "" {
-		t.Fatal("README: no ARMA(1,1) example model file and truth file")
-	}
+	modelText, truthText := readmeExample(t, "moving_average: true", "# truth for the invented tension diary")
 	dir := t.TempDir()
-	write := func(name, text string) string {
-		p := filepath.Join(dir, name)
-		if err := os.WriteFile(p, []byte(text), 0o644); err != nil {
-			t.Fatal(err)
-		}
-		return p
-	}
+	write := func(name, text string) string { return writeFile(t, dir, name, text) }
 	arma := write("tension.yaml", modelText)
 	ar := write("tension-ar.yaml", strings.Replace(modelText, "  moving_average: true\n", "", 1))
 	truth := write("tension-truth.yaml", truthText)
@@ -140,30 +119,9 @@ func TestREADMEGrowthExample(t *testing.T) {
 	if testing.Short() {
 		t.Skip("fits skipped in -short mode")
 	}
-	raw, err := os.ReadFile("README.md")
-	if err != nil {
-		t.Fatal(err)
-	}
-	var modelText, truthText string
-	for _, b := range regexp.MustCompile("(?s)```yaml\n(.*?)```").FindAllStringSubmatch(string(raw), -1) {
-		switch {
-		case strings.HasPrefix(b[1], "data:") && strings.Contains(b[1], "random_slopes: true"):
-			modelText = b[1]
-		case strings.HasPrefix(b[1], "# truth for the invented apprentices"):
-			truthText = b[1]
-		}
-	}
-	if modelText == "" || truthText == "" {
-		t.Fatal("README: no growth example model file and truth file")
-	}
+	modelText, truthText := readmeExample(t, "random_slopes: true", "# truth for the invented apprentices")
 	dir := t.TempDir()
-	write := func(name, text string) string {
-		p := filepath.Join(dir, name)
-		if err := os.WriteFile(p, []byte(text), 0o644); err != nil {
-			t.Fatal(err)
-		}
-		return p
-	}
+	write := func(name, text string) string { return writeFile(t, dir, name, text) }
 	growth := write("wrists.yaml", modelText)
 	riText := strings.NewReplacer("  random_slopes: true\n", "", "  time_scores: occasion_values\n", "").Replace(modelText)
 	ri := write("wrists-ri.yaml", riText)
@@ -207,4 +165,37 @@ func TestREADMEGrowthExample(t *testing.T) {
 	if !strings.Contains(res[0].Name, "growth") || res[1].DiffLoo > -2*res[1].SEDiff {
 		t.Errorf("compare does not prefer the growth model by more than 2 se: %+v", res)
 	}
+}
+
+// readmeExample returns two of the README's yaml blocks: the model file
+// that starts with "data:" and contains modelMark, and the truth file
+// that starts with truthStart.
+func readmeExample(t *testing.T, modelMark, truthStart string) (modelText, truthText string) {
+	t.Helper()
+	raw, err := os.ReadFile("README.md")
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, b := range regexp.MustCompile("(?s)```yaml\n(.*?)```").FindAllStringSubmatch(string(raw), -1) {
+		switch {
+		case strings.HasPrefix(b[1], "data:") && strings.Contains(b[1], modelMark):
+			modelText = b[1]
+		case strings.HasPrefix(b[1], truthStart):
+			truthText = b[1]
+		}
+	}
+	if modelText == "" || truthText == "" {
+		t.Fatalf("README: no example model file with %q and truth file starting %q", modelMark, truthStart)
+	}
+	return modelText, truthText
+}
+
+// writeFile writes text to dir/name and returns the path.
+func writeFile(t *testing.T, dir, name, text string) string {
+	t.Helper()
+	p := filepath.Join(dir, name)
+	if err := os.WriteFile(p, []byte(text), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return p
 }

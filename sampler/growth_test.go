@@ -1,10 +1,8 @@
 package sampler
 
 import (
-	"context"
 	"fmt"
 	"math"
-	"runtime"
 	"slices"
 	"testing"
 
@@ -49,12 +47,7 @@ func TestRecoveryGrowth(t *testing.T) {
 	if testing.Short() {
 		t.Skip("recovery fits skipped in -short mode")
 	}
-	cases := []struct {
-		name       string
-		yaml       string
-		tr         Truth
-		n, periods int
-	}{
+	cases := []recoveryCase{
 		{
 			name: "binary growth with AR(1) residuals",
 			yaml: `
@@ -87,17 +80,7 @@ dynamics: {lags: cross}
 			n: 500, periods: 6,
 		},
 	}
-	for ci, c := range cases {
-		t.Run(c.name, func(t *testing.T) {
-			csv, err := Simulate(c.tr, c.n, c.periods, newRand(uint64(120+ci)))
-			if err != nil {
-				t.Fatal(err)
-			}
-			l := layoutFrom(t, c.yaml, csv)
-			res := runFit(t, l, 2, 600, 600, uint64(27+ci))
-			requireCoverage(t, res, growthTruthValues(c.tr, l))
-		})
-	}
+	runRecovery(t, cases, 120, 27, func(c recoveryCase, l *Layout) map[string]float64 { return growthTruthValues(c.tr, l) })
 }
 
 // TestGrowthMeansAgainstExactMarginal checks the growth block on two
@@ -260,36 +243,5 @@ outcomes: [{name: a, type: binary}, {name: b, type: continuous}]
 person_differences: {random_slopes: true}
 dynamics: {lags: cross}
 `, csv)
-	opt := Options{Chains: 1, Warmup: 3, Draws: 4, Seed: 7, ThresholdUpdate: model.ThresholdJoint}
-	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
-	runtime.GOMAXPROCS(8)
-	full, err := Run(context.Background(), l, opt)
-	if err != nil {
-		t.Fatal(err)
-	}
-	var saved [][]byte
-	ck := opt
-	ck.CheckpointEvery = 5
-	ck.Checkpoint = func(_ int, b []byte) error {
-		if saved == nil {
-			saved = [][]byte{slices.Clone(b)}
-		}
-		return nil
-	}
-	runtime.GOMAXPROCS(1)
-	one, err := Run(context.Background(), l, ck)
-	if err != nil {
-		t.Fatal(err)
-	}
-	if !slices.Equal(full.Draws[0], one.Draws[0]) {
-		t.Fatal("growth draws at GOMAXPROCS 1 differ from GOMAXPROCS 8")
-	}
-	r, err := Resume(context.Background(), l, opt, saved)
-	if err != nil {
-		t.Fatal(err)
-	}
-	got := r.Result()
-	if !slices.Equal(full.Draws[0], got.Draws[0]) || !slices.Equal(full.DerivedDraws[0], got.DerivedDraws[0]) {
-		t.Fatal("resumed growth draws differ from the uninterrupted run")
-	}
+	requireCoresAndResume(t, l, "growth")
 }

@@ -5,6 +5,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"os"
+	"runtime"
 	"slices"
 	"strconv"
 	"testing"
@@ -73,4 +74,44 @@ func envInt(name string, def int) int {
 		return v
 	}
 	return def
+}
+
+// requireCoresAndResume fits l with one chain at GOMAXPROCS 8 and 1 and
+// requires the same draws, then resumes from a mid-run checkpoint and
+// requires the draws of the uninterrupted run; what names the model in
+// messages.
+func requireCoresAndResume(t *testing.T, l *Layout, what string) {
+	t.Helper()
+	opt := Options{Chains: 1, Warmup: 3, Draws: 4, Seed: 7, ThresholdUpdate: model.ThresholdJoint}
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+	runtime.GOMAXPROCS(8)
+	full, err := Run(context.Background(), l, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var saved [][]byte
+	ck := opt
+	ck.CheckpointEvery = 5
+	ck.Checkpoint = func(_ int, b []byte) error {
+		if saved == nil {
+			saved = [][]byte{slices.Clone(b)}
+		}
+		return nil
+	}
+	runtime.GOMAXPROCS(1)
+	one, err := Run(context.Background(), l, ck)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !slices.Equal(full.Draws[0], one.Draws[0]) {
+		t.Fatalf("%s draws at GOMAXPROCS 1 differ from GOMAXPROCS 8", what)
+	}
+	r, err := Resume(context.Background(), l, opt, saved)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := r.Result()
+	if !slices.Equal(full.Draws[0], got.Draws[0]) || !slices.Equal(full.DerivedDraws[0], got.DerivedDraws[0]) {
+		t.Fatalf("resumed %s draws differ from the uninterrupted run", what)
+	}
 }

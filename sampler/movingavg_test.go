@@ -1,11 +1,8 @@
 package sampler
 
 import (
-	"context"
 	"fmt"
 	"math"
-	"runtime"
-	"slices"
 	"strings"
 	"testing"
 
@@ -494,36 +491,5 @@ outcomes: [{name: a, type: binary}, {name: b, type: binary}]
 dynamics: {lags: cross, moving_average: true}
 means: {over_time: equal}
 `, csv)
-	opt := Options{Chains: 1, Warmup: 3, Draws: 4, Seed: 7, ThresholdUpdate: model.ThresholdJoint}
-	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
-	runtime.GOMAXPROCS(8)
-	full, err := Run(context.Background(), l, opt)
-	if err != nil {
-		t.Fatal(err)
-	}
-	var saved [][]byte
-	ck := opt
-	ck.CheckpointEvery = 5
-	ck.Checkpoint = func(_ int, b []byte) error {
-		if saved == nil {
-			saved = [][]byte{slices.Clone(b)}
-		}
-		return nil
-	}
-	runtime.GOMAXPROCS(1)
-	one, err := Run(context.Background(), l, ck)
-	if err != nil {
-		t.Fatal(err)
-	}
-	if !slices.Equal(full.Draws[0], one.Draws[0]) {
-		t.Fatal("ARMA draws at GOMAXPROCS 1 differ from GOMAXPROCS 8")
-	}
-	r, err := Resume(context.Background(), l, opt, saved)
-	if err != nil {
-		t.Fatal(err)
-	}
-	got := r.Result()
-	if !slices.Equal(full.Draws[0], got.Draws[0]) || !slices.Equal(full.DerivedDraws[0], got.DerivedDraws[0]) {
-		t.Fatal("resumed ARMA draws differ from the uninterrupted run")
-	}
+	requireCoresAndResume(t, l, "ARMA")
 }

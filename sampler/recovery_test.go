@@ -64,12 +64,7 @@ func TestRecovery(t *testing.T) {
 	if testing.Short() {
 		t.Skip("recovery fits skipped in -short mode")
 	}
-	cases := []struct {
-		name       string
-		yaml       string
-		tr         Truth
-		n, periods int
-	}{
+	cases := []recoveryCase{
 		{
 			name: "binary cross-lagged",
 			yaml: `
@@ -113,16 +108,31 @@ means: {over_time: equal}
 			n: 150, periods: 20,
 		},
 	}
+	runRecovery(t, cases, 40, 7, func(c recoveryCase, l *Layout) map[string]float64 { return truthValues(c.tr, l) })
+}
+
+// recoveryCase is a model file and the values its data are simulated
+// from.
+type recoveryCase struct {
+	name       string
+	yaml       string
+	tr         Truth
+	n, periods int
+}
+
+// runRecovery simulates each case's panel (seed simSeed + its index),
+// fits it (2 x 600 draws, seed fitSeed + index) and requires the 95%
+// intervals to cover the true values truth gives.
+func runRecovery(t *testing.T, cases []recoveryCase, simSeed, fitSeed uint64, truth func(recoveryCase, *Layout) map[string]float64) {
 	for ci, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			csv, err := Simulate(c.tr, c.n, c.periods, newRand(uint64(40+ci)))
+			csv, err := Simulate(c.tr, c.n, c.periods, newRand(simSeed+uint64(ci)))
 			if err != nil {
 				t.Fatal(err)
 			}
 			l := layoutFrom(t, c.yaml, csv)
-			res := runFit(t, l, 2, 600, 600, uint64(7+ci))
-			truth := truthValues(c.tr, l)
-			requireCoverage(t, res, truth)
+			res := runFit(t, l, 2, 600, 600, fitSeed+uint64(ci))
+			requireCoverage(t, res, truth(c, l))
 		})
 	}
 }
@@ -166,12 +176,7 @@ func TestRecoveryMovingAverage(t *testing.T) {
 	if testing.Short() {
 		t.Skip("recovery fits skipped in -short mode")
 	}
-	cases := []struct {
-		name       string
-		yaml       string
-		tr         Truth
-		n, periods int
-	}{
+	cases := []recoveryCase{
 		{
 			name: "ordinal ARMA(1,1) with random intercepts",
 			yaml: `
@@ -200,19 +205,11 @@ means: {over_time: equal}
 			n: 200, periods: 8,
 		},
 	}
-	for ci, c := range cases {
-		t.Run(c.name, func(t *testing.T) {
-			csv, err := Simulate(c.tr, c.n, c.periods, newRand(uint64(90+ci)))
-			if err != nil {
-				t.Fatal(err)
-			}
-			l := layoutFrom(t, c.yaml, csv)
-			res := runFit(t, l, 2, 600, 600, uint64(17+ci))
-			truth := truthValues(c.tr, l)
-			for j, m := range c.tr.MA {
-				truth[fmt.Sprintf("moving_average[%s]", c.tr.Names[j])] = m
-			}
-			requireCoverage(t, res, truth)
-		})
-	}
+	runRecovery(t, cases, 90, 17, func(c recoveryCase, l *Layout) map[string]float64 {
+		truth := truthValues(c.tr, l)
+		for j, m := range c.tr.MA {
+			truth[fmt.Sprintf("moving_average[%s]", c.tr.Names[j])] = m
+		}
+		return truth
+	})
 }
