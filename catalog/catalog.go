@@ -23,6 +23,8 @@ const (
 	Between
 	Within
 	Derived
+	// Probability holds effects on the probability scale (derived).
+	Probability
 )
 
 // SectionTitles are the sections' headings, in table order.
@@ -31,10 +33,11 @@ var SectionTitles = []string{
 	Between:     "Between persons (random intercepts)",
 	Within:      "Within persons",
 	Derived:     "Derived",
+	Probability: "Effects on the probability scale (derived; associations, not causal effects)",
 }
 
 // ManuscriptSections are the manuscript table's sections, in order.
-var ManuscriptSections = []string{"Thresholds", "Between persons", "Within persons", "Intraclass correlations (latent)"}
+var ManuscriptSections = []string{"Thresholds", "Between persons", "Within persons", "Intraclass correlations (latent)", "Effects on the probability scale"}
 
 // Names is what a label is built from: one entry's outcome names (display
 // names in manuscripts), its category index and occasion.

@@ -22,6 +22,7 @@ var registry = []registryEntry{
 	{term: innovationTerm{}, draw: 4},
 	{term: firstOccasionTerm{}, draw: 5},
 	{term: transitionTerm{}, derived: 4},
+	{term: effectTerm{}, derived: 7},
 }
 
 // shardSplit: terms whose draw rank is below it start before the shard

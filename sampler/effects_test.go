@@ -1,0 +1,114 @@
+package sampler
+
+import (
+	"math"
+	"testing"
+
+	"github.com/lagstar/lagstar/model"
+)
+
+// TestProbabilityEffectsExact checks the probability-scale effects of a
+// binary random-intercept model with known parameters against independent
+// computations: the effect of a one-sd move of the previous within part
+// by the normal CDF, and the contrast (previous answer yes against no) by
+// the bivariate orthant probability from one-dimensional quadrature
+// (orthantByQuadrature), to 1e-6. One outcome (carry-over), then two
+// (a cross-lag, with the stationary covariance found by iterating
+// V = A V A' + Sigma rather than by the sampler's solver).
+func TestProbabilityEffectsExact(t *testing.T) {
+	pYes := func(h float64) float64 { return 0.5 * math.Erfc(h/math.Sqrt2) } // P(Z > h)
+	derived := func(l *Layout, v []float64) map[string]float64 {
+		st := NewState(l, newRand(2))
+		if err := st.Inject(v); err != nil {
+			t.Fatal(err)
+		}
+		got := map[string]float64{}
+		for k, x := range st.ExtractDerived(nil, NewDerivedWork(l)) {
+			got[l.DerivedParams()[k].Name] = x
+		}
+		return got
+	}
+	check := func(got map[string]float64, name string, want float64) {
+		t.Helper()
+		v, ok := got[name]
+		if !ok {
+			t.Fatalf("no derived quantity %s", name)
+		}
+		if math.Abs(v-want) > 1e-6 {
+			t.Errorf("%s = %.9f, independent %.9f", name, v, want)
+		}
+	}
+
+	// One binary outcome: threshold 0.3, intercept variance 0.5, carry-over 0.6.
+	tr := Truth{Names: []string{"y"}, Types: []model.OutcomeType{model.Binary}, Tau: [][]float64{{0.3}}, Psi: []float64{0.5}, A: []float64{0.6}, Sigma: []float64{1}}
+	csv, err := Simulate(tr, 30, 4, newRand(1))
+	if err != nil {
+		t.Fatal(err)
+	}
+	l := layoutFrom(t, "data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: [{name: y, type: binary}]\ndynamics: {lags: own, first_occasion: stationary}\nmeans: {over_time: equal}\n", csv)
+	got := derived(l, []float64{0.3, 0.5, 0.6})
+	V := 1 / (1 - 0.36)
+	for _, c := range []struct {
+		scope string
+		psi   float64
+	}{{"typical", 0}, {"average", 0.5}} {
+		sdInnov := math.Sqrt(1 + c.psi)
+		check(got, "prob_effect_"+c.scope+"[y->y,1]", pYes((0.3-0.6*math.Sqrt(V))/sdInnov)-pYes(0.3/sdInnov))
+		sd, r := math.Sqrt(V+c.psi), (0.6*V+c.psi)/(V+c.psi)
+		h := 0.3 / sd
+		both := orthantByQuadrature(h, h, r)
+		p := pYes(h)
+		check(got, "prob_contrast_"+c.scope+"[y->y,1]", both/p-(p-both)/(1-p))
+	}
+
+	// Two binary outcomes, a -> b cross-lag 0.25.
+	A := []float64{0.5, 0, 0.25, 0.3}
+	S := []float64{1, 0.2, 0.2, 1}
+	tr2 := Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Binary, model.Binary}, Tau: [][]float64{{0.2}, {-0.4}},
+		Psi: []float64{0.4, 0.1, 0.1, 0.6}, A: A, Sigma: S}
+	csv, err = Simulate(tr2, 30, 4, newRand(1))
+	if err != nil {
+		t.Fatal(err)
+	}
+	l = layoutFrom(t, "data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: [{name: a, type: binary}, {name: b, type: binary}]\ndynamics: {lags: cross, first_occasion: stationary}\nmeans: {over_time: equal}\n", csv)
+	// Parameters: thresholds, ri variances, ri correlation, paths
+	// (autoregression a, crosslag b->a, crosslag a->b, autoregression b),
+	// innovation correlation.
+	var vals []float64
+	for _, p := range l.Params() {
+		vals = append(vals, map[string]float64{"threshold[a,1]": 0.2, "threshold[b,1]": -0.4, "ri_variance[a]": 0.4, "ri_variance[b]": 0.6,
+			"ri_correlation[a,b]": 0.1 / math.Sqrt(0.24), "autoregression[a]": 0.5, "crosslag[b->a]": 0, "crosslag[a->b]": 0.25,
+			"autoregression[b]": 0.3, "innovation_correlation[a,b]": 0.2}[p.Name])
+	}
+	got = derived(l, vals)
+	v := []float64{1, 0, 0, 1}
+	for range 2000 { // V = A V A' + S
+		var n [4]float64
+		for r := 0; r < 2; r++ {
+			for c := 0; c < 2; c++ {
+				x := S[r*2+c]
+				for p := 0; p < 2; p++ {
+					for q := 0; q < 2; q++ {
+						x += A[r*2+p] * v[p*2+q] * A[c*2+q]
+					}
+				}
+				n[r*2+c] = x
+			}
+		}
+		copy(v, n[:])
+	}
+	covBA := A[2]*v[0] + A[3]*v[2] // cov(w_b,t, w_a,t-1) = (A V)_ba
+	for _, c := range []struct {
+		scope           string
+		psiA, psiB, psiAB float64
+	}{{"typical", 0, 0, 0}, {"average", 0.4, 0.6, 0.1}} {
+		sdInnov := math.Sqrt(1 + c.psiB)
+		check(got, "prob_effect_"+c.scope+"[a->b,1]", pYes((-0.4-0.25*math.Sqrt(v[0]))/sdInnov)-pYes(-0.4/sdInnov))
+		sa, sb := math.Sqrt(v[0]+c.psiA), math.Sqrt(v[3]+c.psiB)
+		r := (covBA + c.psiAB) / (sa * sb)
+		ha, hb := 0.2/sa, -0.4/sb
+		both := orthantByQuadrature(ha, hb, r) // P(a yes at t-1, b yes at t)
+		pa, pb := pYes(ha), pYes(hb)
+		check(got, "prob_contrast_"+c.scope+"[a->b,1]", both/pa-(pb-both)/(1-pa))
+	}
+}
