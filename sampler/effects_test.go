@@ -99,7 +99,7 @@ func TestProbabilityEffectsExact(t *testing.T) {
 	}
 	covBA := A[2]*v[0] + A[3]*v[2] // cov(w_b,t, w_a,t-1) = (A V)_ba
 	for _, c := range []struct {
-		scope           string
+		scope             string
 		psiA, psiB, psiAB float64
 	}{{"typical", 0, 0, 0}, {"average", 0.4, 0.6, 0.1}} {
 		sdInnov := math.Sqrt(1 + c.psiB)
