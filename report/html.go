@@ -12,6 +12,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/lagstar/lagstar/catalog"
 	"github.com/lagstar/lagstar/diagnostics"
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
@@ -119,6 +120,28 @@ img{max-width:100%}.alarm{background:#b00020;color:#fff;padding:.8em 1em;font-we
 			f3(e.Mean), f3(e.SD), f3(e.Lower), f3(e.Upper), fr(e.Rhat), f0(e.ESSBulk), f0(e.ESSTail))
 	}
 	b.WriteString("</table>")
+	if effects := probabilityEntries(s.Derived); len(effects) > 0 {
+		b.WriteString("<h2>Effects on the probability scale</h2><p>Posterior means and central intervals of every carry-over and cross-lag into a categorical outcome restated as a change in probability (binary outcomes) or in the mean category (ordinal ones); see README, \"The output folder\". Associations under the model, not causal effects.</p>")
+		for _, g := range []struct{ prefix, title, unit string }{
+			{"prob_", "Change in the probability of the upper category (average over persons)", "change in probability"},
+			{"score_", "Change in the mean category (average over persons)", "change in mean category"},
+		} {
+			var group []Entry
+			for _, e := range effects {
+				if strings.HasPrefix(e.Kind, g.prefix) {
+					group = append(group, e)
+				}
+			}
+			if len(group) == 0 {
+				continue
+			}
+			png, err := effectsPNG(g.title, g.unit, group)
+			if err != nil {
+				return err
+			}
+			fmt.Fprintf(&b, "<img class=\"figure\" alt=\"%s\" src=\"data:image/png;base64,%s\">", esc(g.title), base64.StdEncoding.EncodeToString(png))
+		}
+	}
 	var names []string
 	for _, e := range tabled {
 		if slices.Contains(d.Names, e.Name) {
@@ -406,4 +429,78 @@ func byKind(stats []PPCStat) [][]PPCStat {
 		out[i] = groups[k]
 	}
 	return out
+}
+
+// probabilityEntries returns the tabled derived entries of the
+// probability-scale section, averaged over persons (the typical-person
+// ones are in the table).
+func probabilityEntries(derived []Entry) []Entry {
+	var out []Entry
+	for _, e := range derived {
+		if k, ok := catalog.Lookup(e.Kind); ok && k.Section == catalog.Probability && k.Tabled && strings.HasSuffix(e.Kind, "_average") {
+			out = append(out, e)
+		}
+	}
+	return out
+}
+
+// effectsPNG draws each entry's posterior interval as a bar with its mean
+// as a dot, against a line at 0.
+func effectsPNG(title, unit string, es []Entry) ([]byte, error) {
+	p := plot.New()
+	p.Title.Text = title
+	p.X.Label.Text = "path (predictor at t-1 -> outcome at t)"
+	p.Y.Label.Text = unit
+	p.X.Tick.Label.Rotation = math.Pi / 2
+	p.X.Tick.Label.XAlign = draw.XRight
+	p.X.Tick.Label.Font.Size = vg.Points(8)
+	p.Y.Tick.Label.Font.Size = vg.Points(8)
+	names := make([]string, len(es))
+	zero, err := plotter.NewLine(plotter.XYs{{X: -0.5, Y: 0}, {X: float64(len(es)) - 0.5, Y: 0}})
+	if err != nil {
+		return nil, err
+	}
+	zero.Color = color.Gray{Y: 120}
+	zero.Dashes = []vg.Length{vg.Points(3), vg.Points(3)}
+	p.Add(zero)
+	for k, e := range es {
+		names[k] = strings.Replace(e.Name, "_average", "", 1)
+		bar, err := plotter.NewLine(plotter.XYs{{X: float64(k), Y: float64(e.Lower)}, {X: float64(k), Y: float64(e.Upper)}})
+		if err != nil {
+			return nil, err
+		}
+		bar.Width = vg.Points(4)
+		bar.Color = color.RGBA{R: 150, G: 170, B: 210, A: 255}
+		p.Add(bar)
+		dot, err := plotter.NewScatter(plotter.XYs{{X: float64(k), Y: float64(e.Mean)}})
+		if err != nil {
+			return nil, err
+		}
+		dot.GlyphStyle.Radius = vg.Points(2.5)
+		dot.Color = color.Black
+		p.Add(dot)
+		if k == 0 {
+			p.Legend.Add(fmt.Sprintf("%.0f%% interval", 100*float64(e.Level)), bar)
+			p.Legend.Add("posterior mean", dot)
+		}
+	}
+	lo, hi := 0.0, 0.0
+	for _, e := range es {
+		lo, hi = min(lo, float64(e.Lower)), max(hi, float64(e.Upper))
+	}
+	if hi > lo { // headroom above the data for the legend
+		p.Y.Min, p.Y.Max = lo-0.05*(hi-lo), hi+0.25*(hi-lo)
+	}
+	p.Legend.Top = true
+	p.Legend.TextStyle.Font.Size = vg.Points(8)
+	p.NominalX(names...)
+	var buf bytes.Buffer
+	wt, err := p.WriterTo(vg.Points(math.Max(480, 22*float64(len(es)))), vg.Points(420), "png")
+	if err != nil {
+		return nil, err
+	}
+	if _, err := wt.WriteTo(&buf); err != nil {
+		return nil, err
+	}
+	return buf.Bytes(), nil
 }
