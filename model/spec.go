@@ -136,6 +136,9 @@ type WithinSpec struct {
 	// MovingAverage (dynamics.moving_average) adds M zeta_{t-1} to the
 	// within part: ARMA(1,1) residuals with one coefficient per outcome.
 	MovingAverage bool
+	// ImpulseHorizon (dynamics.impulse_horizon) is the number of
+	// occasions after a shock the impulse responses run to (0: none).
+	ImpulseHorizon int
 }
 
 // MeansSpec is the occasion-mean structure.
@@ -187,7 +190,7 @@ var schema = map[string][]string{
 	"data":               {"csv", "person", "occasion", "missing_codes", "separator", "layout", "wide_columns"},
 	"outcomes":           {"name", "display_name", "type", "categories", "lowest", "labels", "empty_categories", "columns"},
 	"person_differences": {"random_intercepts", "random_slopes", "time_scores"},
-	"dynamics":           {"lags", "residual_correlation", "over_time", "first_occasion", "moving_average"},
+	"dynamics":           {"lags", "residual_correlation", "over_time", "first_occasion", "moving_average", "impulse_horizon"},
 	"means":              {"over_time", "anchor"},
 	"sampler":            {"chains", "warmup", "draws", "seed", "threshold_update", "until_converged", "max_draws", "time_limit", "path_moves", "checkpoint_every"},
 }
@@ -258,6 +261,7 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 	sp := &Spec{Path: path, Raw: raw}
 	sp.Data.Missing = []string{"", "NA"}
 	sp.Within.Lags = LagsCross
+	sp.Within.ImpulseHorizon = 5
 	sp.Means.Free = true
 	sp.Means.Anchor = AnchorAuto
 	sp.Sampler = SamplerSpec{Chains: 4, Warmup: 1000, Draws: 1000, ThresholdUpdate: ThresholdJoint, UntilConverged: true, MaxDraws: 20000, CheckpointEvery: 500}
@@ -363,6 +367,9 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 		}
 		if v, ok := m["moving_average"]; ok {
 			sp.Within.MovingAverage = r.boolean(v, "dynamics.moving_average")
+		}
+		if v, ok := m["impulse_horizon"]; ok {
+			sp.Within.ImpulseHorizon = r.intIn(v, "dynamics.impulse_horizon", 0, 50)
 		}
 	}
 	if n, ok := top["means"]; ok {

@@ -142,6 +142,14 @@ img{max-width:100%}.alarm{background:#b00020;color:#fff;padding:.8em 1em;font-we
 			fmt.Fprintf(&b, "<img class=\"figure\" alt=\"%s\" src=\"data:image/png;base64,%s\">", esc(g.title), base64.StdEncoding.EncodeToString(png))
 		}
 	}
+	if figs, err := impulseFigures(s.Derived); err != nil {
+		return err
+	} else if len(figs) > 0 {
+		b.WriteString("<h2>Impulse responses</h2><p>The response of each outcome's latent within part, occasion by occasion, to a one-sd innovation in one outcome (posterior mean and central interval); categorical outcomes' responses on the probability scale are in summary.json (impulse_probability_*, impulse_score_*). The model's dynamics, not causal effects.</p>")
+		for _, f := range figs {
+			fmt.Fprintf(&b, "<img class=\"figure\" alt=\"%s\" src=\"data:image/png;base64,%s\">", esc(f.title), base64.StdEncoding.EncodeToString(f.png))
+		}
+	}
 	var names []string
 	for _, e := range tabled {
 		if slices.Contains(d.Names, e.Name) {
@@ -503,4 +511,91 @@ func effectsPNG(title, unit string, es []Entry) ([]byte, error) {
 		return nil, err
 	}
 	return buf.Bytes(), nil
+}
+
+type figure struct {
+	title string
+	png   []byte
+}
+
+// impulseFigures draws one figure per shocked outcome: each outcome's
+// latent impulse response against the horizon, the posterior mean as a
+// line and the central interval as a band.
+func impulseFigures(derived []Entry) ([]figure, error) {
+	type series struct {
+		to     string
+		points []Entry
+	}
+	var shocks []string
+	byShock := map[string][]*series{}
+	for _, e := range derived {
+		if e.Kind != "impulse_response" {
+			continue
+		}
+		ss, ok := byShock[e.From]
+		if !ok {
+			shocks = append(shocks, e.From)
+		}
+		if len(ss) == 0 || ss[len(ss)-1].to != e.Outcome {
+			ss = append(ss, &series{to: e.Outcome})
+			byShock[e.From] = ss
+		}
+		ss[len(ss)-1].points = append(ss[len(ss)-1].points, e)
+	}
+	var figs []figure
+	for _, k := range shocks {
+		p := plot.New()
+		p.Title.Text = fmt.Sprintf("Impulse responses to a one-sd innovation in %s", k)
+		p.X.Label.Text = "occasions after the innovation"
+		p.Y.Label.Text = "latent within-part response"
+		for c, sr := range byShock[k] {
+			col := chainColors[c%len(chainColors)]
+			band := make(plotter.XYs, 0, 2*len(sr.points))
+			line := make(plotter.XYs, 0, len(sr.points))
+			for _, e := range sr.points {
+				band = append(band, plotter.XY{X: float64(e.Index), Y: float64(e.Lower)})
+				line = append(line, plotter.XY{X: float64(e.Index), Y: float64(e.Mean)})
+			}
+			for q := len(sr.points) - 1; q >= 0; q-- {
+				e := sr.points[q]
+				band = append(band, plotter.XY{X: float64(e.Index), Y: float64(e.Upper)})
+			}
+			poly, err := plotter.NewPolygon(band)
+			if err != nil {
+				return nil, err
+			}
+			r, g, bl, _ := col.RGBA()
+			poly.Color = color.NRGBA{R: uint8(r >> 8), G: uint8(g >> 8), B: uint8(bl >> 8), A: 60}
+			poly.LineStyle.Width = 0
+			poly.LineStyle.Color = color.Transparent
+			p.Add(poly)
+			l, err := plotter.NewLine(line)
+			if err != nil {
+				return nil, err
+			}
+			l.Color = col
+			l.Width = vg.Points(1.5)
+			p.Add(l)
+			p.Legend.Add(sr.to, l)
+		}
+		zero, err := plotter.NewLine(plotter.XYs{{X: 1, Y: 0}, {X: float64(len(byShock[k][0].points)), Y: 0}})
+		if err != nil {
+			return nil, err
+		}
+		zero.Color = color.Gray{Y: 120}
+		zero.Dashes = []vg.Length{vg.Points(3), vg.Points(3)}
+		p.Add(zero)
+		p.Legend.Top = true
+		p.Legend.TextStyle.Font.Size = vg.Points(8)
+		var buf bytes.Buffer
+		wt, err := p.WriterTo(vg.Points(480), vg.Points(320), "png")
+		if err != nil {
+			return nil, err
+		}
+		if _, err := wt.WriteTo(&buf); err != nil {
+			return nil, err
+		}
+		figs = append(figs, figure{p.Title.Text, buf.Bytes()})
+	}
+	return figs, nil
 }

@@ -1,6 +1,7 @@
 package sampler
 
 import (
+	"fmt"
 	"math"
 	"testing"
 
@@ -110,5 +111,106 @@ func TestProbabilityEffectsExact(t *testing.T) {
 		both := orthantByQuadrature(ha, hb, r) // P(a yes at t-1, b yes at t)
 		pa, pb := pYes(ha), pYes(hb)
 		check(got, "prob_contrast_"+c.scope+"[a->b,1]", both/pa-(pb-both)/(1-pa))
+	}
+}
+
+// TestImpulseResponsesExact: for two binary outcomes with known paths and
+// innovation covariance, the impulse responses equal A^h zeta_0 computed
+// by repeated multiplication here, and the probability responses equal
+// P(y*_h > tau) with mean shifted by the response and variance
+// sum_{s<h} (A^s Sigma A^s')_jj (plus the intercept variance for the
+// average), to 1e-9; with a moving average the first response is
+// (A + M) zeta_0 and the variance sums the moving-average weights.
+func TestImpulseResponsesExact(t *testing.T) {
+	A := []float64{0.5, -0.1, 0.25, 0.3}
+	S := []float64{1, 0.2, 0.2, 1}
+	tr := Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Binary, model.Binary}, Tau: [][]float64{{0.2}, {-0.4}},
+		Psi: []float64{0.4, 0.1, 0.1, 0.6}, A: A, Sigma: S, Sigma1: S}
+	csv, err := Simulate(tr, 30, 5, newRand(1))
+	if err != nil {
+		t.Fatal(err)
+	}
+	values := map[string]float64{"threshold[a,1]": 0.2, "threshold[b,1]": -0.4, "ri_variance[a]": 0.4, "ri_variance[b]": 0.6,
+		"ri_correlation[a,b]": 0.1 / math.Sqrt(0.24), "autoregression[a]": 0.5, "crosslag[b->a]": -0.1, "crosslag[a->b]": 0.25,
+		"autoregression[b]": 0.3, "innovation_correlation[a,b]": 0.2, "initial_correlation[a,b]": 0.2, "moving_average[a]": -0.3, "moving_average[b]": 0.2}
+	mul := func(m, x []float64) []float64 { return []float64{m[0]*x[0] + m[1]*x[1], m[2]*x[0] + m[3]*x[1]} }
+	for _, ma := range []bool{false, true} {
+		l := layoutFrom(t, fmt.Sprintf("data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: [{name: a, type: binary}, {name: b, type: binary}]\ndynamics: {lags: cross, moving_average: %v, impulse_horizon: 4}\nmeans: {over_time: equal}\n", ma), csv)
+		var vals []float64
+		for _, p := range l.Params() {
+			v, ok := values[p.Name]
+			if !ok {
+				t.Fatalf("no value for %s", p.Name)
+			}
+			vals = append(vals, v)
+		}
+		st := NewState(l, newRand(2))
+		if err := st.Inject(vals); err != nil {
+			t.Fatal(err)
+		}
+		got := map[string]float64{}
+		for k, x := range st.ExtractDerived(nil, NewDerivedWork(l)) {
+			got[l.DerivedParams()[k].Name] = x
+		}
+		names := []string{"a", "b"}
+		for k := 0; k < 2; k++ {
+			z := []float64{0, 0}
+			z[k] = 1 // unit innovation sds
+			r := mul(A, z)
+			if ma {
+				r[0] += -0.3 * z[0]
+				r[1] += 0.2 * z[1]
+			}
+			for h := 1; h <= 4; h++ {
+				for j := 0; j < 2; j++ {
+					name := fmt.Sprintf("impulse_response[%s->%s,h=%d]", names[k], names[j], h)
+					if v, ok := got[name]; !ok || math.Abs(v-r[j]) > 1e-9 {
+						t.Errorf("%s = %v (present %v), want %.9f", name, v, ok, r[j])
+					}
+				}
+				r = mul(A, r)
+			}
+		}
+		// Probabilities: W_h = sum_{m<h} psi_m S psi_m' with psi_0 = I,
+		// psi_m = A^(m-1) (A + M) (the moving-average weights; A^m
+		// without a moving average).
+		mm := []float64{0, 0}
+		if ma {
+			mm = []float64{-0.3, 0.2}
+		}
+		w := []float64{0, 0, 0, 0}
+		pw := []float64{1, 0, 0, 1}  // psi_m
+		r := mul(A, []float64{1, 0}) // shock in a
+		r[0] += mm[0]
+		for h := 1; h <= 4; h++ {
+			// w += pw S pw'
+			for a := 0; a < 2; a++ {
+				for b := 0; b < 2; b++ {
+					for p := 0; p < 2; p++ {
+						for q := 0; q < 2; q++ {
+							w[a*2+b] += pw[a*2+p] * S[p*2+q] * pw[b*2+q]
+						}
+					}
+				}
+			}
+			if h == 1 {
+				pw = []float64{A[0] + mm[0], A[1], A[2], A[3] + mm[1]}
+			} else {
+				pw = []float64{A[0]*pw[0] + A[1]*pw[2], A[0]*pw[1] + A[1]*pw[3], A[2]*pw[0] + A[3]*pw[2], A[2]*pw[1] + A[3]*pw[3]}
+			}
+			for _, c := range []struct {
+				scope string
+				psi   float64
+			}{{"typical", 0}, {"average", 0.6}} {
+				sd := math.Sqrt(w[3] + c.psi)
+				up := func(mu float64) float64 { return 0.5 * math.Erfc((-0.4-mu)/(sd*math.Sqrt2)) }
+				want := up(r[1]) - up(0)
+				name := fmt.Sprintf("impulse_probability_%s[a->b,h=%d]", c.scope, h)
+				if v := got[name]; math.Abs(v-want) > 1e-9 {
+					t.Errorf("%s = %.9f, want %.9f", name, v, want)
+				}
+			}
+			r = mul(A, r)
+		}
 	}
 }

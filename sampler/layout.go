@@ -39,6 +39,9 @@ type Layout struct {
 	// means (NMean = 0).
 	Growth bool
 	Time   []float64
+	// Horizon is the number of occasions the impulse responses run to
+	// (term_impulse.go; 0: none).
+	Horizon int
 
 	// MeanIdx[t*J+j] is the index of the free mean parameter of outcome j at
 	// grid occasion t, or -1 where the mean is fixed at 0: a categorical
@@ -96,7 +99,7 @@ func NewLayout(sp *model.Spec, pan *model.Panel, pr priors.Set) *Layout {
 	l := &Layout{Spec: sp, Panel: pan, Priors: pr, J: J, T: T, N: len(pan.Persons),
 		RI: sp.Between.RandomIntercepts, Lags: sp.Within.Lags, ResCorr: sp.Within.ResidualCorrelation,
 		PathsFree: sp.Within.PathsFree, Stat: sp.Within.StationaryStart, MeansFree: sp.Means.Free,
-		MA: sp.Within.MovingAverage && pan.T() > 2, Growth: sp.Between.RandomSlopes}
+		MA: sp.Within.MovingAverage && pan.T() > 2, Growth: sp.Between.RandomSlopes, Horizon: sp.Within.ImpulseHorizon}
 	if l.Growth {
 		l.Time = model.TimeScores(sp, pan)
 	}

@@ -50,13 +50,14 @@ func (l *Layout) DerivedParams() []Param {
 type DerivedWork struct {
 	v, tmp, ref, st []float64
 	refV            []float64
+	imp             []float64 // impulse responses (term_impulse.go)
 	terms           []derivedTerm
 }
 
 // NewDerivedWork allocates scratch for ExtractDerived.
 func NewDerivedWork(l *Layout) *DerivedWork {
 	return &DerivedWork{v: make([]float64, l.T*l.J*l.J), tmp: make([]float64, l.J*l.J), ref: make([]float64, l.J*l.J),
-		st: make([]float64, 7*l.J*l.J), terms: derivedOrder(l)}
+		st: make([]float64, 7*l.J*l.J), imp: make([]float64, l.Horizon*(l.J+l.J*l.J)+2*l.J*l.J+l.J), terms: derivedOrder(l)}
 }
 
 // ExtractDerived writes the derived quantities of DerivedParams. The

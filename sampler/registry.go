@@ -23,6 +23,7 @@ var registry = []registryEntry{
 	{term: firstOccasionTerm{}, draw: 5},
 	{term: transitionTerm{}, derived: 4},
 	{term: effectTerm{}, derived: 7},
+	{term: impulseTerm{}, derived: 8},
 }
 
 // shardSplit: terms whose draw rank is below it start before the shard
