@@ -33,8 +33,10 @@ import (
 // (prob_effect_*, prob_contrast_*); an ordinal one the change in its mean
 // category score, lowest = 1 (score_effect_*, score_contrast_*), and per
 // category (category_effect_*, category_contrast_*, summary.json only).
-// One set when paths and means are equal over time (at the stationary
-// variance when the carry-over is stable), else one per occasion t >= 1.
+// With paths equal over time, one set (at the stationary variance when
+// the carry-over is stable, else the last occasion's), averaged over the
+// occasions t >= 2 when the means differ between them (means free over
+// time, growth); with paths free, one set per occasion t >= 2.
 // Not reported with moving averages, whose lagged innovation makes "the
 // other lagged parts at their means" ambiguous.
 type effectTerm struct{}
@@ -67,7 +69,7 @@ func eachEffectPath(l *Layout, fn func(j, k int)) {
 func (effectTerm) DerivedParams(l *Layout) []Param {
 	var ps []Param
 	names := l.outcomeNames()
-	for _, t := range l.transitionOccasions() {
+	for _, t := range l.pathOccasionsOrAll() {
 		suffix := ""
 		var o *int
 		if t >= 0 {
@@ -130,75 +132,96 @@ func (effectTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []flo
 			prev = cum
 		}
 	}
-	var hi, lo [12]float64
-	for _, t := range l.transitionOccasions() {
-		cur, prev := t, t-1
-		var vPrev, vCur, a, sig []float64
-		if t < 0 {
-			cur, prev = 1, 0
-			vPrev, vCur = dw.refV, dw.refV
-		} else {
-			vPrev, vCur = dw.v[(t-1)*JJ:t*JJ], dw.v[t*JJ:(t+1)*JJ]
+	var hi, lo, sh, sl [12]float64
+	for _, ro := range l.pathOccasionsOrAll() {
+		// The occasions averaged over: ro alone with free paths, else
+		// every occasion t >= 1 at the reference variance.
+		first, last := ro, ro
+		if ro < 0 {
+			first, last = 1, l.T-1
 		}
-		a, sig = s.A[cur*JJ:(cur+1)*JJ], s.Sig[cur*JJ:(cur+1)*JJ]
+		n := float64(last - first + 1)
 		eachEffectPath(l, func(j, k int) {
-			mu := s.CellMean(cur, j)
 			for _, what := range effectKinds(l, k) {
 				for _, scope := range transitionScopes {
 					avg := scope == "average"
-					switch what {
-					case "effect":
-						v := sig[j*J+j]
-						if avg {
-							v += s.BetweenCov(cur, j, cur, j)
+					clear(sh[:])
+					clear(sl[:])
+					for cur := first; cur <= last; cur++ {
+						prev := cur - 1
+						vPrev, vCur := dw.refV, dw.refV
+						if ro >= 0 {
+							vPrev, vCur = dw.v[prev*JJ:cur*JJ], dw.v[cur*JJ:(cur+1)*JJ]
 						}
-						sd := math.Sqrt(v)
-						probs(lo[:], j, mu, sd)
-						probs(hi[:], j, mu+a[j*J+k]*math.Sqrt(vPrev[k*J+k]), sd)
-					case "contrast":
-						v1, v2 := vPrev[k*J+k], vCur[j*J+j]
-						c := 0.0
-						for m := 0; m < J; m++ {
-							c += a[j*J+m] * vPrev[m*J+k]
-						}
-						if avg {
-							v1 += s.BetweenCov(prev, k, prev, k)
-							v2 += s.BetweenCov(cur, j, cur, j)
-							c += s.BetweenCov(cur, j, prev, k)
-						}
-						s1, s2 := math.Sqrt(v1), math.Sqrt(v2)
-						r := math.Max(-1, math.Min(1, c/(s1*s2)))
-						muK := s.CellMean(prev, k)
-						for _, side := range []struct {
-							cat int
-							out []float64
-						}{{0, lo[:]}, {l.K[k] - 1, hi[:]}} {
-							ka, kb := s.interval(k, side.cat)
-							a1, b1 := (ka-muK)/s1, (kb-muK)/s1
-							m := margin(a1, b1)
-							for q := 0; q < l.K[j]; q++ {
-								ja, jb := s.interval(j, q)
-								side.out[q] = bvn.Rect(a1, b1, (ja-mu)/s2, (jb-mu)/s2, r) / m
+						a, sig := s.A[cur*JJ:(cur+1)*JJ], s.Sig[cur*JJ:(cur+1)*JJ]
+						mu := s.CellMean(cur, j)
+						switch what {
+						case "effect":
+							v := sig[j*J+j]
+							if avg {
+								v += s.BetweenCov(cur, j, cur, j)
 							}
+							sd := math.Sqrt(v)
+							probs(lo[:], j, mu, sd)
+							probs(hi[:], j, mu+a[j*J+k]*math.Sqrt(vPrev[k*J+k]), sd)
+						case "contrast":
+							v1, v2 := vPrev[k*J+k], vCur[j*J+j]
+							c := 0.0
+							for m := 0; m < J; m++ {
+								c += a[j*J+m] * vPrev[m*J+k]
+							}
+							if avg {
+								v1 += s.BetweenCov(prev, k, prev, k)
+								v2 += s.BetweenCov(cur, j, cur, j)
+								c += s.BetweenCov(cur, j, prev, k)
+							}
+							s1, s2 := math.Sqrt(v1), math.Sqrt(v2)
+							r := math.Max(-1, math.Min(1, c/(s1*s2)))
+							muK := s.CellMean(prev, k)
+							for _, side := range []struct {
+								cat int
+								out []float64
+							}{{0, lo[:]}, {l.K[k] - 1, hi[:]}} {
+								ka, kb := s.interval(k, side.cat)
+								a1, b1 := (ka-muK)/s1, (kb-muK)/s1
+								m := margin(a1, b1)
+								for q := 0; q < l.K[j]; q++ {
+									ja, jb := s.interval(j, q)
+									side.out[q] = bvn.Rect(a1, b1, (ja-mu)/s2, (jb-mu)/s2, r) / m
+								}
+							}
+						}
+						for q := 0; q < l.K[j]; q++ {
+							sh[q] += hi[q]
+							sl[q] += lo[q]
 						}
 					}
 					if l.K[j] == 2 {
-						dst = append(dst, hi[1]-lo[1])
+						dst = append(dst, (sh[1]-sl[1])/n)
 						continue
 					}
 					score := 0.0
 					for q := 0; q < l.K[j]; q++ {
-						score += float64(q+1) * (hi[q] - lo[q])
+						score += float64(q+1) * (sh[q] - sl[q]) / n
 					}
 					dst = append(dst, score)
 					for q := 0; q < l.K[j]; q++ {
-						dst = append(dst, hi[q]-lo[q])
+						dst = append(dst, (sh[q]-sl[q])/n)
 					}
 				}
 			}
 		})
 	}
 	return dst
+}
+
+// pathOccasionsOrAll returns -1 (one set, averaged over the occasions)
+// with paths equal over time, else the occasions 1..T-1.
+func (l *Layout) pathOccasionsOrAll() []int {
+	if l.PathsFree {
+		return l.pathOccasions()
+	}
+	return []int{-1}
 }
 
 func init() {

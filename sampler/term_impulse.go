@@ -21,7 +21,8 @@ import (
 // that the shift brings, with the later innovations integrated out (their
 // variance W_h accumulates as W_1 = Sigma, W_h = A W_h-1 A' + Sigma, plus
 // the moving-average terms), for a typical person and averaged over
-// persons. H is dynamics.impulse_horizon. Needs paths equal over time
+// persons, averaged over the occasions t >= 2 when their means differ.
+// H is dynamics.impulse_horizon. Needs paths equal over time
 // (with free paths the response depends on the occasion of the shock).
 // Not causal effects: the response of the model's within part to a shock
 // that the model treats as exogenous.
@@ -145,15 +146,21 @@ func (impulseTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []fl
 			if !l.Cat[j] {
 				continue
 			}
-			mu := s.CellMean(1, j)
 			for _, scope := range transitionScopes {
 				for h := 1; h <= H; h++ {
-					v := w[(h-1)*JJ+j*J+j]
-					if scope == "average" {
-						v += s.BetweenCov(1, j, 1, j)
+					// Averaged over the occasions t >= 2 a shock could
+					// reach (their means may differ).
+					d := 0.0
+					for t := 1; t < l.T; t++ {
+						mu := s.CellMean(t, j)
+						v := w[(h-1)*JJ+j*J+j]
+						if scope == "average" {
+							v += s.BetweenCov(t, j, t, j)
+						}
+						sd := math.Sqrt(v)
+						d += score(j, mu+resp[(h-1)*J+j], sd) - score(j, mu, sd)
 					}
-					sd := math.Sqrt(v)
-					dst = append(dst, score(j, mu+resp[(h-1)*J+j], sd)-score(j, mu, sd))
+					dst = append(dst, d/float64(l.T-1))
 				}
 			}
 		}
