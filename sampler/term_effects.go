@@ -138,7 +138,7 @@ func (effectTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []flo
 		// every occasion t >= 1 at the reference variance.
 		first, last := ro, ro
 		if ro < 0 {
-			first, last = 1, l.T-1
+			first, last = 1, l.meanOccasions()
 		}
 		n := float64(last - first + 1)
 		eachEffectPath(l, func(j, k int) {
@@ -213,6 +213,16 @@ func (effectTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []flo
 		})
 	}
 	return dst
+}
+
+// meanOccasions returns the last occasion effects are averaged over with
+// paths equal over time: T-1 when the means differ between occasions
+// (means free over time, growth), else 1 (every occasion gives the same).
+func (l *Layout) meanOccasions() int {
+	if l.MeansFree || l.Growth {
+		return l.T - 1
+	}
+	return 1
 }
 
 // pathOccasionsOrAll returns -1 (one set, averaged over the occasions)

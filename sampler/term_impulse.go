@@ -150,8 +150,8 @@ func (impulseTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []fl
 				for h := 1; h <= H; h++ {
 					// Averaged over the occasions t >= 2 a shock could
 					// reach (their means may differ).
-					d := 0.0
-					for t := 1; t < l.T; t++ {
+					d, last := 0.0, l.meanOccasions()
+					for t := 1; t <= last; t++ {
 						mu := s.CellMean(t, j)
 						v := w[(h-1)*JJ+j*J+j]
 						if scope == "average" {
@@ -160,7 +160,7 @@ func (impulseTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []fl
 						sd := math.Sqrt(v)
 						d += score(j, mu+resp[(h-1)*J+j], sd) - score(j, mu, sd)
 					}
-					dst = append(dst, d/float64(l.T-1))
+					dst = append(dst, d/float64(last))
 				}
 			}
 		}
