@@ -253,8 +253,13 @@ func Build(res *sampler.Result, level float64, version string) *Summary {
 		mi.Priors = append(slices.Clip(mi.Priors), fmt.Sprintf("moving averages: normal(0, %g^2) truncated to (-1, 1)", l.Priors.PathSD))
 	}
 	if l.Growth {
+		// The growth priors replace those of the occasion means and the
+		// random-intercept covariance.
 		mi.RandomSlopes, mi.TimeScores, mi.MeansOverTime = true, l.Time, "growth line"
-		mi.Priors = append(slices.Clip(mi.Priors), sampler.GrowthPriors(l)...)
+		mi.Priors = slices.DeleteFunc(slices.Clone(mi.Priors), func(p string) bool {
+			return strings.HasPrefix(p, "occasion means:") || strings.HasPrefix(p, "random-intercept covariance:")
+		})
+		mi.Priors = append(mi.Priors, sampler.GrowthPriors(l)...)
 	}
 	for j, o := range l.Panel.Outcomes {
 		mi.Outcomes = append(mi.Outcomes, outcomeInfo(l, j))
