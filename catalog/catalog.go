@@ -37,7 +37,7 @@ var SectionTitles = []string{
 }
 
 // ManuscriptSections are the manuscript table's sections, in order.
-var ManuscriptSections = []string{"Thresholds", "Between persons", "Within persons", "Intraclass correlations (latent)", "Effects on the probability scale"}
+var ManuscriptSections = []string{"Thresholds", "Between persons", "Within persons", "Intraclass correlations (latent)", "Effects on the probability scale", "Impulse responses (latent within part)"}
 
 // Names is what a label is built from: one entry's outcome names (display
 // names in manuscripts), its category index and occasion.

@@ -75,6 +75,7 @@ func WriteTable(w io.Writer, s *Summary) error {
 				fr(e.Rhat), f0(e.ESSBulk), f0(e.ESSTail), mark)
 		}
 	}
+	writeImpulseGrid(&b, s.Derived)
 	if len(s.Warnings) > 0 {
 		b.WriteString("\nWarnings\n")
 		ws := s.Warnings
@@ -143,4 +144,46 @@ func f0(n Num) string {
 		return "-"
 	}
 	return fmt.Sprintf("%.0f", float64(n))
+}
+
+// writeImpulseGrid writes the latent impulse responses as a grid: one row
+// per shocked and responding outcome, one column per occasion after the
+// shock, each cell the posterior mean (summary.json has the intervals and
+// diagnostics; the HTML report plots them).
+func writeImpulseGrid(b *strings.Builder, derived []Entry) {
+	type row struct {
+		name  string
+		cells []string
+	}
+	var rows []row
+	width, maxH := len("shock -> response"), 0
+	for _, e := range derived {
+		if e.Kind != "impulse_response" {
+			continue
+		}
+		name := e.From + " -> " + e.Outcome
+		if len(rows) == 0 || rows[len(rows)-1].name != name {
+			rows = append(rows, row{name: name})
+			width = max(width, len(name))
+		}
+		r := &rows[len(rows)-1]
+		r.cells = append(r.cells, f3(e.Mean))
+		maxH = max(maxH, len(r.cells))
+	}
+	if len(rows) == 0 {
+		return
+	}
+	b.WriteString("\nImpulse responses (latent within part after a one-sd innovation; posterior means by occasions after it)\n")
+	fmt.Fprintf(b, "  %-*s", width, "shock -> response")
+	for h := 1; h <= maxH; h++ {
+		fmt.Fprintf(b, " %8s", fmt.Sprintf("h=%d", h))
+	}
+	b.WriteString("\n")
+	for _, r := range rows {
+		fmt.Fprintf(b, "  %-*s", width, r.name)
+		for _, c := range r.cells {
+			fmt.Fprintf(b, " %8s", c)
+		}
+		b.WriteString("\n")
+	}
 }

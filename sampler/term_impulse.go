@@ -171,14 +171,22 @@ func (impulseTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []fl
 func init() {
 	label := func(what string) func(catalog.Names) string {
 		return func(n catalog.Names) string {
-			return fmt.Sprintf("%s → %s, %s %d occasions after a one-sd innovation", n.From, n.Outcome, what, n.Index)
+			return fmt.Sprintf("%s → %s, %s %s after a one-sd innovation", n.From, n.Outcome, what, plural(n.Index, "occasion", "occasions"))
 		}
 	}
 	catalog.Register(
-		catalog.Kind{Name: "impulse_response", Section: catalog.Probability, Label: label("latent within-part response")},
+		catalog.Kind{Name: "impulse_response", Section: catalog.Probability, Manuscript: "Impulse responses (latent within part)", Label: label("latent within-part response")},
 		catalog.Kind{Name: "impulse_probability_typical", Section: catalog.Probability, Label: label("change in P(upper), typical person,")},
 		catalog.Kind{Name: "impulse_probability_average", Section: catalog.Probability, Label: label("change in P(upper), average over persons,")},
 		catalog.Kind{Name: "impulse_score_typical", Section: catalog.Probability, Label: label("change in the mean category, typical person,")},
 		catalog.Kind{Name: "impulse_score_average", Section: catalog.Probability, Label: label("change in the mean category, average over persons,")},
 	)
+}
+
+// plural writes n with the singular or plural noun.
+func plural(n int, one, many string) string {
+	if n == 1 {
+		return "1 " + one
+	}
+	return fmt.Sprintf("%d %s", n, many)
 }
