@@ -214,3 +214,65 @@ func TestImpulseResponsesExact(t *testing.T) {
 		}
 	}
 }
+
+// TestImpulseOrdinal: for one ordinal outcome (carry-over 0.6, three
+// thresholds), the per-category impulse probabilities equal normal
+// probability differences computed here, sum to 0 over the categories,
+// and weight to the mean-category response.
+func TestImpulseOrdinal(t *testing.T) {
+	tau := []float64{-0.8, 0.1, 0.9}
+	tr := Truth{Names: []string{"y"}, Types: []model.OutcomeType{model.Ordinal}, Tau: [][]float64{tau}, Psi: []float64{0.5}, A: []float64{0.6}, Sigma: []float64{1}, Sigma1: []float64{1}}
+	csv, err := Simulate(tr, 40, 4, newRand(1))
+	if err != nil {
+		t.Fatal(err)
+	}
+	l := layoutFrom(t, "data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: [{name: y, type: ordinal, categories: 4, lowest: 0}]\ndynamics: {lags: own, impulse_horizon: 3}\nmeans: {over_time: equal}\n", csv)
+	st := NewState(l, newRand(2))
+	if err := st.Inject([]float64{-0.8, 0.1, 0.9, 0.5, 0.6}); err != nil {
+		t.Fatal(err)
+	}
+	got := map[string]float64{}
+	for k, x := range st.ExtractDerived(nil, NewDerivedWork(l)) {
+		got[l.DerivedParams()[k].Name] = x
+	}
+	cdf := func(x float64) float64 { return 0.5 * math.Erfc(-x/math.Sqrt2) }
+	pc := func(c int, mu, sd float64) float64 {
+		lo, hi := math.Inf(-1), math.Inf(1)
+		if c > 0 {
+			lo = tau[c-1]
+		}
+		if c < 3 {
+			hi = tau[c]
+		}
+		return cdf((hi-mu)/sd) - cdf((lo-mu)/sd)
+	}
+	w, r := 0.0, 0.6 // W_h, response
+	for h := 1; h <= 3; h++ {
+		w = 0.36*w + 1
+		for _, sc := range []struct {
+			scope string
+			psi   float64
+		}{{"typical", 0}, {"average", 0.5}} {
+			sd := math.Sqrt(w + sc.psi)
+			sum, score := 0.0, 0.0
+			for c := 0; c < 4; c++ {
+				name := fmt.Sprintf("impulse_category_%s[y->y,%d,h=%d]", sc.scope, c, h)
+				want := pc(c, r, sd) - pc(c, 0, sd)
+				v, ok := got[name]
+				if !ok || math.Abs(v-want) > 1e-9 {
+					t.Errorf("%s = %v (present %v), want %.9f", name, v, ok, want)
+				}
+				sum += v
+				score += float64(c+1) * v
+			}
+			if math.Abs(sum) > 1e-12 {
+				t.Errorf("%s, h=%d: category changes sum to %g", sc.scope, h, sum)
+			}
+			name := fmt.Sprintf("impulse_score_%s[y->y,h=%d]", sc.scope, h)
+			if v := got[name]; math.Abs(v-score) > 1e-9 {
+				t.Errorf("%s = %.9f, categories give %.9f", name, v, score)
+			}
+		}
+		r *= 0.6
+	}
+}

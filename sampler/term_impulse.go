@@ -17,8 +17,8 @@ import (
 // (zeta_0 = sqrt(Sigma_kk) e_k, every other innovation of that occasion
 // 0, the process at its mean before), that is A^h zeta_0, or under
 // ARMA(1,1) A^(h-1) (A + M) zeta_0; and for a categorical outcome the
-// change in P(upper category) (ordinal: in the mean category, lowest = 1)
-// that the shift brings, with the later innovations integrated out (their
+// change in P(upper category) (ordinal: in the mean category, lowest = 1,
+// and in each category's probability) that the shift brings, with the later innovations integrated out (their
 // variance W_h accumulates as W_1 = Sigma, W_h = A W_h-1 A' + Sigma, plus
 // the moving-average terms), for a typical person and averaged over
 // persons, averaged over the occasions t >= 2 when their means differ.
@@ -57,9 +57,21 @@ func (impulseTerm) DerivedParams(l *Layout) []Param {
 			if l.K[j] > 2 {
 				kind = "impulse_score"
 			}
+			codes := l.Panel.Outcomes[j].Codes
 			for _, scope := range transitionScopes {
 				for h := 1; h <= l.Horizon; h++ {
 					ps = append(ps, Param{Name: fmt.Sprintf("%s_%s[%s,h=%d]", kind, scope, path, h), Kind: kind + "_" + scope, Outcome: names[j], From: names[k], Index: h})
+				}
+				if l.K[j] == 2 {
+					continue
+				}
+				// Ordinal: each category's probability change (Index is
+				// the category, the horizon is in the name).
+				for c := 0; c < l.K[j]; c++ {
+					for h := 1; h <= l.Horizon; h++ {
+						ps = append(ps, Param{Name: fmt.Sprintf("impulse_category_%s[%s,%s,h=%d]", scope, path, codes[c], h),
+							Kind: "impulse_category_" + scope, Outcome: names[j], From: names[k], Index: c + 1})
+					}
 				}
 			}
 		}
@@ -137,6 +149,11 @@ func (impulseTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []fl
 		}
 		return m
 	}
+	// catProb returns P(y_j = c) for a latent mean mu and sd.
+	catProb := func(j, c int, mu, sd float64) float64 {
+		lo, hi := s.interval(j, c)
+		return norm.CDF((hi-mu)/sd) - norm.CDF((lo-mu)/sd)
+	}
 	for k := 0; k < J; k++ {
 		impulsePaths(s, k, resp, tmp)
 		for j := 0; j < J; j++ {
@@ -162,6 +179,24 @@ func (impulseTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []fl
 					}
 					dst = append(dst, d/float64(last))
 				}
+				if l.K[j] == 2 {
+					continue
+				}
+				for c := 0; c < l.K[j]; c++ {
+					for h := 1; h <= H; h++ {
+						d, last := 0.0, l.meanOccasions()
+						for t := 1; t <= last; t++ {
+							mu := s.CellMean(t, j)
+							v := w[(h-1)*JJ+j*J+j]
+							if scope == "average" {
+								v += s.BetweenCov(t, j, t, j)
+							}
+							sd := math.Sqrt(v)
+							d += catProb(j, c, mu+resp[(h-1)*J+j], sd) - catProb(j, c, mu, sd)
+						}
+						dst = append(dst, d/float64(last))
+					}
+				}
 			}
 		}
 	}
@@ -180,6 +215,8 @@ func init() {
 		catalog.Kind{Name: "impulse_probability_average", Section: catalog.Probability, Label: label("change in P(upper), average over persons,")},
 		catalog.Kind{Name: "impulse_score_typical", Section: catalog.Probability, Label: label("change in the mean category, typical person,")},
 		catalog.Kind{Name: "impulse_score_average", Section: catalog.Probability, Label: label("change in the mean category, average over persons,")},
+		catalog.Kind{Name: "impulse_category_typical", Section: catalog.Probability},
+		catalog.Kind{Name: "impulse_category_average", Section: catalog.Probability},
 	)
 }
 
