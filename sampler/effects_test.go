@@ -62,6 +62,31 @@ func TestProbabilityEffectsExact(t *testing.T) {
 		check(got, "prob_contrast_"+c.scope+"[y->y,1]", both/p-(p-both)/(1-p))
 	}
 
+	// One binary outcome with ARMA(1,1) within parts (carry-over 0.6,
+	// moving average -0.3): the stationary variance sigma^2 (1 + 2 a m +
+	// m^2) / (1 - a^2) and lag-1 covariance a V + m sigma^2 (Box, Jenkins
+	// & Reinsel 2008, ch. 3).
+	csv, err = Simulate(Truth{Names: []string{"y"}, Types: []model.OutcomeType{model.Binary}, Tau: [][]float64{{0.3}}, Psi: []float64{0.5},
+		A: []float64{0.6}, MA: []float64{-0.3}, Sigma: []float64{1}, Sigma1: []float64{1}}, 30, 5, newRand(1))
+	if err != nil {
+		t.Fatal(err)
+	}
+	l = layoutFrom(t, "data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: [{name: y, type: binary}]\ndynamics: {lags: own, moving_average: true}\nmeans: {over_time: equal}\n", csv)
+	got = derived(l, []float64{0.3, 0.5, 0.6, -0.3})
+	V = (1 + 2*0.6*-0.3 + 0.09) / (1 - 0.36)
+	for _, c := range []struct {
+		scope string
+		psi   float64
+	}{{"typical", 0}, {"average", 0.5}} {
+		sdInnov := math.Sqrt(1 + c.psi)
+		check(got, "prob_effect_"+c.scope+"[y->y,1]", pYes((0.3-0.6*math.Sqrt(V))/sdInnov)-pYes(0.3/sdInnov))
+		sd, r := math.Sqrt(V+c.psi), (0.6*V-0.3+c.psi)/(V+c.psi)
+		h := 0.3 / sd
+		both := orthantByQuadrature(h, h, r)
+		p := pYes(h)
+		check(got, "prob_contrast_"+c.scope+"[y->y,1]", both/p-(p-both)/(1-p))
+	}
+
 	// Two binary outcomes, a -> b cross-lag 0.25.
 	A := []float64{0.5, 0, 0.25, 0.3}
 	S := []float64{1, 0.2, 0.2, 1}

@@ -37,14 +37,15 @@ import (
 // the carry-over is stable, else the last occasion's), averaged over the
 // occasions t >= 2 when the means differ between them (means free over
 // time, growth); with paths free, one set per occasion t >= 2.
-// Not reported with moving averages, whose lagged innovation makes "the
-// other lagged parts at their means" ambiguous.
+// Under ARMA(1,1) the effect also holds the previous innovation at its
+// mean (so its shift is still A_jk times the sd), and the contrast's
+// covariance gains M Sigma.
 type effectTerm struct{}
 
 func (effectTerm) Name() string { return "probability-scale effects" }
 
 func (effectTerm) Active(l *Layout) bool {
-	return l.T > 1 && l.HasPaths() && !l.MA && slices.Contains(l.Cat, true)
+	return l.T > 1 && l.HasPaths() && slices.Contains(l.Cat, true)
 }
 
 func (effectTerm) Params(*Layout) []Param                    { return nil }
@@ -169,6 +170,16 @@ func (effectTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []flo
 							c := 0.0
 							for m := 0; m < J; m++ {
 								c += a[j*J+m] * vPrev[m*J+k]
+							}
+							if l.MA {
+								// + M Sigma: Cov(zeta_t-1, w_t-1) = Sigma_t-1
+								// (at the reference: the stationary ARMA,
+								// M from the third occasion on).
+								tm, ts := cur, prev
+								if ro < 0 {
+									tm, ts = 2, 1
+								}
+								c += s.M[tm*J+j] * s.Sig[ts*JJ+j*J+k]
 							}
 							if avg {
 								v1 += s.BetweenCov(prev, k, prev, k)
