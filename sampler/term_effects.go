@@ -33,10 +33,11 @@ import (
 // (prob_effect_*, prob_contrast_*); an ordinal one the change in its mean
 // category score, lowest = 1 (score_effect_*, score_contrast_*), and per
 // category (category_effect_*, category_contrast_*, summary.json only).
-// With paths equal over time, one set (at the stationary variance when
-// the carry-over is stable, else the last occasion's), averaged over the
-// occasions t >= 2 when the means differ between them (means free over
-// time, growth); with paths free, one set per occasion t >= 2.
+// With paths equal over time, one set at the stationary variance (when
+// the carry-over is stable, else the last occasion's) for the average
+// occasion: the latent means and between covariances averaged over the
+// occasions t >= 2 when they differ (means free over time, growth); with
+// paths free, one set per occasion t >= 2.
 // Under ARMA(1,1) the effect also holds the previous innovation at its
 // mean (so its shift is still A_jk times the sd), and the contrast's
 // covariance gains M Sigma.
@@ -133,91 +134,93 @@ func (effectTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []flo
 			prev = cum
 		}
 	}
-	var hi, lo, sh, sl [12]float64
+	var hi, lo [12]float64
 	for _, ro := range l.pathOccasionsOrAll() {
-		// The occasions averaged over: ro alone with free paths, else
-		// every occasion t >= 1 at the reference variance.
+		// With free paths the occasion ro; else the reference variance
+		// and the between part's means and covariances averaged over the
+		// occasions t >= 1 (one occasion when they do not differ).
+		cur, prev := ro, ro-1
+		vPrev, vCur := dw.refV, dw.refV
 		first, last := ro, ro
 		if ro < 0 {
+			cur, prev = 1, 0
 			first, last = 1, l.meanOccasions()
+		} else {
+			vPrev, vCur = dw.v[prev*JJ:cur*JJ], dw.v[cur*JJ:(cur+1)*JJ]
 		}
 		n := float64(last - first + 1)
+		// avgOver averages f(t) over t = first..last.
+		avgOver := func(f func(t int) float64) float64 {
+			x := 0.0
+			for t := first; t <= last; t++ {
+				x += f(t)
+			}
+			return x / n
+		}
+		a, sig := s.A[cur*JJ:(cur+1)*JJ], s.Sig[cur*JJ:(cur+1)*JJ]
 		eachEffectPath(l, func(j, k int) {
+			mu := avgOver(func(t int) float64 { return s.CellMean(t, j) })
+			muK := avgOver(func(t int) float64 { return s.CellMean(t-1, k) })
+			bj := avgOver(func(t int) float64 { return s.BetweenCov(t, j, t, j) })
+			bk := avgOver(func(t int) float64 { return s.BetweenCov(t-1, k, t-1, k) })
+			bjk := avgOver(func(t int) float64 { return s.BetweenCov(t, j, t-1, k) })
 			for _, what := range effectKinds(l, k) {
 				for _, scope := range transitionScopes {
 					avg := scope == "average"
-					clear(sh[:])
-					clear(sl[:])
-					for cur := first; cur <= last; cur++ {
-						prev := cur - 1
-						vPrev, vCur := dw.refV, dw.refV
-						if ro >= 0 {
-							vPrev, vCur = dw.v[prev*JJ:cur*JJ], dw.v[cur*JJ:(cur+1)*JJ]
+					switch what {
+					case "effect":
+						v := sig[j*J+j]
+						if avg {
+							v += bj
 						}
-						a, sig := s.A[cur*JJ:(cur+1)*JJ], s.Sig[cur*JJ:(cur+1)*JJ]
-						mu := s.CellMean(cur, j)
-						switch what {
-						case "effect":
-							v := sig[j*J+j]
-							if avg {
-								v += s.BetweenCov(cur, j, cur, j)
-							}
-							sd := math.Sqrt(v)
-							probs(lo[:], j, mu, sd)
-							probs(hi[:], j, mu+a[j*J+k]*math.Sqrt(vPrev[k*J+k]), sd)
-						case "contrast":
-							v1, v2 := vPrev[k*J+k], vCur[j*J+j]
-							c := 0.0
-							for m := 0; m < J; m++ {
-								c += a[j*J+m] * vPrev[m*J+k]
-							}
-							if l.MA {
-								// + M Sigma: Cov(zeta_t-1, w_t-1) = Sigma_t-1
-								// (at the reference: the stationary ARMA,
-								// M from the third occasion on).
-								tm, ts := cur, prev
-								if ro < 0 {
-									tm, ts = 2, 1
-								}
-								c += s.M[tm*J+j] * s.Sig[ts*JJ+j*J+k]
-							}
-							if avg {
-								v1 += s.BetweenCov(prev, k, prev, k)
-								v2 += s.BetweenCov(cur, j, cur, j)
-								c += s.BetweenCov(cur, j, prev, k)
-							}
-							s1, s2 := math.Sqrt(v1), math.Sqrt(v2)
-							r := math.Max(-1, math.Min(1, c/(s1*s2)))
-							muK := s.CellMean(prev, k)
-							for _, side := range []struct {
-								cat int
-								out []float64
-							}{{0, lo[:]}, {l.K[k] - 1, hi[:]}} {
-								ka, kb := s.interval(k, side.cat)
-								a1, b1 := (ka-muK)/s1, (kb-muK)/s1
-								m := margin(a1, b1)
-								for q := 0; q < l.K[j]; q++ {
-									ja, jb := s.interval(j, q)
-									side.out[q] = bvn.Rect(a1, b1, (ja-mu)/s2, (jb-mu)/s2, r) / m
-								}
-							}
+						sd := math.Sqrt(v)
+						probs(lo[:], j, mu, sd)
+						probs(hi[:], j, mu+a[j*J+k]*math.Sqrt(vPrev[k*J+k]), sd)
+					case "contrast":
+						v1, v2 := vPrev[k*J+k], vCur[j*J+j]
+						c := 0.0
+						for m := 0; m < J; m++ {
+							c += a[j*J+m] * vPrev[m*J+k]
 						}
-						for q := 0; q < l.K[j]; q++ {
-							sh[q] += hi[q]
-							sl[q] += lo[q]
+						if l.MA {
+							// + M Sigma: Cov(zeta_t-1, w_t-1) = Sigma_t-1
+							// (at the reference: the stationary ARMA,
+							// M from the third occasion on).
+							tm, ts := cur, prev
+							if ro < 0 {
+								tm, ts = 2, 1
+							}
+							c += s.M[tm*J+j] * s.Sig[ts*JJ+j*J+k]
+						}
+						if avg {
+							v1, v2, c = v1+bk, v2+bj, c+bjk
+						}
+						s1, s2 := math.Sqrt(v1), math.Sqrt(v2)
+						r := math.Max(-1, math.Min(1, c/(s1*s2)))
+						for _, side := range []struct {
+							cat int
+							out []float64
+						}{{0, lo[:]}, {l.K[k] - 1, hi[:]}} {
+							ka, kb := s.interval(k, side.cat)
+							a1, b1 := (ka-muK)/s1, (kb-muK)/s1
+							m := margin(a1, b1)
+							for q := 0; q < l.K[j]; q++ {
+								ja, jb := s.interval(j, q)
+								side.out[q] = bvn.Rect(a1, b1, (ja-mu)/s2, (jb-mu)/s2, r) / m
+							}
 						}
 					}
 					if l.K[j] == 2 {
-						dst = append(dst, (sh[1]-sl[1])/n)
+						dst = append(dst, hi[1]-lo[1])
 						continue
 					}
 					score := 0.0
 					for q := 0; q < l.K[j]; q++ {
-						score += float64(q+1) * (sh[q] - sl[q]) / n
+						score += float64(q+1) * (hi[q] - lo[q])
 					}
 					dst = append(dst, score)
 					for q := 0; q < l.K[j]; q++ {
-						dst = append(dst, (sh[q]-sl[q])/n)
+						dst = append(dst, hi[q]-lo[q])
 					}
 				}
 			}
@@ -226,8 +229,8 @@ func (effectTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []flo
 	return dst
 }
 
-// meanOccasions returns the last occasion effects are averaged over with
-// paths equal over time: T-1 when the means differ between occasions
+// meanOccasions returns the last occasion the means are averaged over
+// with paths equal over time: T-1 when the means differ between occasions
 // (means free over time, growth), else 1 (every occasion gives the same).
 func (l *Layout) meanOccasions() int {
 	if l.MeansFree || l.Growth {

@@ -21,7 +21,8 @@ import (
 // and in each category's probability) that the shift brings, with the later innovations integrated out (their
 // variance W_h accumulates as W_1 = Sigma, W_h = A W_h-1 A' + Sigma, plus
 // the moving-average terms), for a typical person and averaged over
-// persons, averaged over the occasions t >= 2 when their means differ.
+// persons, for the average occasion (means and between variances
+// averaged over the occasions t >= 2 when they differ).
 // H is dynamics.impulse_horizon. Needs paths equal over time
 // (with free paths the response depends on the occasion of the shock).
 // Not causal effects: the response of the model's within part to a shock
@@ -163,38 +164,33 @@ func (impulseTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []fl
 			if !l.Cat[j] {
 				continue
 			}
+			// The average occasion: latent mean and between variance
+			// averaged over the occasions t >= 2 when they differ.
+			last := l.meanOccasions()
+			mu, bv := 0.0, 0.0
+			for t := 1; t <= last; t++ {
+				mu += s.CellMean(t, j) / float64(last)
+				bv += s.BetweenCov(t, j, t, j) / float64(last)
+			}
 			for _, scope := range transitionScopes {
-				for h := 1; h <= H; h++ {
-					// Averaged over the occasions t >= 2 a shock could
-					// reach (their means may differ).
-					d, last := 0.0, l.meanOccasions()
-					for t := 1; t <= last; t++ {
-						mu := s.CellMean(t, j)
-						v := w[(h-1)*JJ+j*J+j]
-						if scope == "average" {
-							v += s.BetweenCov(t, j, t, j)
-						}
-						sd := math.Sqrt(v)
-						d += score(j, mu+resp[(h-1)*J+j], sd) - score(j, mu, sd)
+				sdAt := func(h int) float64 {
+					v := w[(h-1)*JJ+j*J+j]
+					if scope == "average" {
+						v += bv
 					}
-					dst = append(dst, d/float64(last))
+					return math.Sqrt(v)
+				}
+				for h := 1; h <= H; h++ {
+					sd := sdAt(h)
+					dst = append(dst, score(j, mu+resp[(h-1)*J+j], sd)-score(j, mu, sd))
 				}
 				if l.K[j] == 2 {
 					continue
 				}
 				for c := 0; c < l.K[j]; c++ {
 					for h := 1; h <= H; h++ {
-						d, last := 0.0, l.meanOccasions()
-						for t := 1; t <= last; t++ {
-							mu := s.CellMean(t, j)
-							v := w[(h-1)*JJ+j*J+j]
-							if scope == "average" {
-								v += s.BetweenCov(t, j, t, j)
-							}
-							sd := math.Sqrt(v)
-							d += catProb(j, c, mu+resp[(h-1)*J+j], sd) - catProb(j, c, mu, sd)
-						}
-						dst = append(dst, d/float64(last))
+						sd := sdAt(h)
+						dst = append(dst, catProb(j, c, mu+resp[(h-1)*J+j], sd)-catProb(j, c, mu, sd))
 					}
 				}
 			}
