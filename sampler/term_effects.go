@@ -29,7 +29,7 @@ import (
 // Each for a typical person (between part at its mean) and averaged over
 // persons (the between variance joins the within one: b enters y*
 // additively and is normal, so the average is again a normal probability,
-// no quadrature needed). A binary outcome reports the change in P(yes)
+// no quadrature needed). A binary outcome reports the change in P(upper)
 // (prob_effect_*, prob_contrast_*); an ordinal one the change in its mean
 // category score, lowest = 1 (score_effect_*, score_contrast_*), and per
 // category (category_effect_*, category_contrast_*, summary.json only).
