@@ -144,9 +144,6 @@ type WithinSpec struct {
 // MeansSpec is the occasion-mean structure.
 type MeansSpec struct {
 	Free bool // over_time: free
-	// Set: a key of the means section was given (refused with random
-	// slopes, whose growth line replaces the occasion means).
-	Set bool
 	// Anchor (means.anchor) says at which occasion a categorical outcome's
 	// mean is fixed at 0 when means are free (its thresholds carry the
 	// location there): AnchorAuto, AnchorFirst, or an occasion value.
@@ -374,7 +371,6 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 	}
 	if n, ok := top["means"]; ok {
 		m := r.mapping(n, "means")
-		sp.Means.Set = len(m) > 0
 		if sp.Between.RandomSlopes && len(m) > 0 {
 			p.addf(path, n.Line, "means: not used with person_differences.random_slopes: true; the means then follow the growth line (a mean intercept and a mean slope per outcome, the intercept fixed at 0 for a categorical outcome, whose thresholds carry its level); leave the means section out")
 		}
