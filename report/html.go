@@ -394,15 +394,7 @@ func ppcPage(title string, stats []PPCStat) ([]byte, error) {
 	p.Legend.Top = true
 	p.Legend.TextStyle.Font.Size = vg.Points(8)
 	p.NominalX(names...)
-	var buf bytes.Buffer
-	wt, err := p.WriterTo(vg.Points(math.Max(480, 16*float64(len(stats)))), vg.Points(380), "png")
-	if err != nil {
-		return nil, err
-	}
-	if _, err := wt.WriteTo(&buf); err != nil {
-		return nil, err
-	}
-	return buf.Bytes(), nil
+	return pngOf(p, vg.Points(math.Max(480, 16*float64(len(stats)))), vg.Points(380))
 }
 
 // occasionRange describes the occasion grid in words: "1 to 42" or
@@ -502,15 +494,7 @@ func effectsPNG(title, unit string, es []Entry) ([]byte, error) {
 	p.Legend.Top = true
 	p.Legend.TextStyle.Font.Size = vg.Points(8)
 	p.NominalX(names...)
-	var buf bytes.Buffer
-	wt, err := p.WriterTo(vg.Points(math.Max(480, 22*float64(len(es)))), vg.Points(420), "png")
-	if err != nil {
-		return nil, err
-	}
-	if _, err := wt.WriteTo(&buf); err != nil {
-		return nil, err
-	}
-	return buf.Bytes(), nil
+	return pngOf(p, vg.Points(math.Max(480, 22*float64(len(es)))), vg.Points(420))
 }
 
 type figure struct {
@@ -587,15 +571,24 @@ func impulseFigures(derived []Entry) ([]figure, error) {
 		p.Add(zero)
 		p.Legend.Top = true
 		p.Legend.TextStyle.Font.Size = vg.Points(8)
-		var buf bytes.Buffer
-		wt, err := p.WriterTo(vg.Points(480), vg.Points(320), "png")
+		png, err := pngOf(p, vg.Points(480), vg.Points(320))
 		if err != nil {
 			return nil, err
 		}
-		if _, err := wt.WriteTo(&buf); err != nil {
-			return nil, err
-		}
-		figs = append(figs, figure{p.Title.Text, buf.Bytes()})
+		figs = append(figs, figure{p.Title.Text, png})
 	}
 	return figs, nil
+}
+
+// pngOf renders p as a PNG of width w and height h.
+func pngOf(p *plot.Plot, w, h vg.Length) ([]byte, error) {
+	var buf bytes.Buffer
+	wt, err := p.WriterTo(w, h, "png")
+	if err != nil {
+		return nil, err
+	}
+	if _, err := wt.WriteTo(&buf); err != nil {
+		return nil, err
+	}
+	return buf.Bytes(), nil
 }

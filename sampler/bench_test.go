@@ -154,18 +154,7 @@ func BenchmarkSweepMovingAverage(b *testing.B) {
 		for _, ma := range []bool{false, true} {
 			b.Run(fmt.Sprintf("%s/moving_average=%v", c.name, ma), func(b *testing.B) {
 				l := layoutFrom(b, fmt.Sprintf("data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: %s\ndynamics: {lags: %s, moving_average: %v}\nmeans: {over_time: equal}\n", c.outcomes, lags, ma), csv)
-				rng := newRand(2)
-				st := NewState(l, rng)
-				blocks := Blocks(l, model.ThresholdJoint)
-				for range 20 {
-					Sweep(st, blocks, rng)
-				}
-				b.ReportAllocs()
-				for b.Loop() {
-					if err := Sweep(st, blocks, rng); err != nil {
-						b.Fatal(err)
-					}
-				}
+				benchSweeps(b, l)
 			})
 		}
 	}
@@ -200,19 +189,24 @@ func BenchmarkSweepGrowth(b *testing.B) {
 					means = ""
 				}
 				l := layoutFrom(b, fmt.Sprintf("data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: %s\nperson_differences: {random_slopes: %v}\ndynamics: {lags: %s}\n%s", c.outcomes, growth, c.lags, means), csv)
-				rng := newRand(2)
-				st := NewState(l, rng)
-				blocks := Blocks(l, model.ThresholdJoint)
-				for range 20 {
-					Sweep(st, blocks, rng)
-				}
-				b.ReportAllocs()
-				for b.Loop() {
-					if err := Sweep(st, blocks, rng); err != nil {
-						b.Fatal(err)
-					}
-				}
+				benchSweeps(b, l)
 			})
+		}
+	}
+}
+
+// benchSweeps times sweeps of every block of l after 20 warm-up sweeps.
+func benchSweeps(b *testing.B, l *Layout) {
+	rng := newRand(2)
+	st := NewState(l, rng)
+	blocks := Blocks(l, model.ThresholdJoint)
+	for range 20 {
+		Sweep(st, blocks, rng)
+	}
+	b.ReportAllocs()
+	for b.Loop() {
+		if err := Sweep(st, blocks, rng); err != nil {
+			b.Fatal(err)
 		}
 	}
 }

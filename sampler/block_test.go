@@ -94,8 +94,9 @@ func partName(p Part) string {
 }
 
 // TestExtractAllocatesNothing: taking a kept draw (parameters and derived
-// quantities, every term's) allocates nothing, on a model that has every
-// term and paths and means free over time.
+// quantities, every term's) allocates nothing, on a model with paths and
+// means free over time and on a growth model with paths equal (the
+// impulse responses).
 func TestExtractAllocatesNothing(t *testing.T) {
 	tr := Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Ordinal, model.Binary}, Tau: [][]float64{{-0.5, 0.5}, {0.2}},
 		Psi: []float64{0.5, 0.1, 0.1, 0.4}, A: []float64{0.3, 0.1, 0, 0.2}, Sigma: []float64{1, 0.2, 0.2, 1}, Missing: 0.05}
@@ -103,11 +104,16 @@ func TestExtractAllocatesNothing(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	l := layoutFrom(t, "data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: [{name: a, type: ordinal, categories: 3}, {name: b, type: binary}]\ndynamics: {lags: cross, over_time: free}\nmeans: {over_time: free}\n", csv)
-	st := NewState(l, newRand(2))
-	dw := NewDerivedWork(l)
-	buf, dbuf := st.Extract(nil), st.ExtractDerived(nil, dw)
-	if n := testing.AllocsPerRun(50, func() { buf = st.Extract(buf); dbuf = st.ExtractDerived(dbuf, dw) }); n != 0 {
-		t.Errorf("%.0f allocations per kept draw, want 0", n)
+	const head = "data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: [{name: a, type: ordinal, categories: 3}, {name: b, type: binary}]\n"
+	// Paths and means free; then growth with paths equal (impulse
+	// responses, effects for the average occasion).
+	for _, m := range []string{"dynamics: {lags: cross, over_time: free}\nmeans: {over_time: free}\n", "person_differences: {random_slopes: true}\ndynamics: {lags: cross}\n"} {
+		l := layoutFrom(t, head+m, csv)
+		st := NewState(l, newRand(2))
+		dw := NewDerivedWork(l)
+		buf, dbuf := st.Extract(nil), st.ExtractDerived(nil, dw)
+		if n := testing.AllocsPerRun(50, func() { buf = st.Extract(buf); dbuf = st.ExtractDerived(dbuf, dw) }); n != 0 {
+			t.Errorf("%s: %.0f allocations per kept draw, want 0", m, n)
+		}
 	}
 }

@@ -18,17 +18,6 @@ import (
 // V = A V A' + Sigma rather than by the sampler's solver).
 func TestProbabilityEffectsExact(t *testing.T) {
 	pYes := func(h float64) float64 { return 0.5 * math.Erfc(h/math.Sqrt2) } // P(Z > h)
-	derived := func(l *Layout, v []float64) map[string]float64 {
-		st := NewState(l, newRand(2))
-		if err := st.Inject(v); err != nil {
-			t.Fatal(err)
-		}
-		got := map[string]float64{}
-		for k, x := range st.ExtractDerived(nil, NewDerivedWork(l)) {
-			got[l.DerivedParams()[k].Name] = x
-		}
-		return got
-	}
 	check := func(got map[string]float64, name string, want float64) {
 		t.Helper()
 		v, ok := got[name]
@@ -47,7 +36,7 @@ func TestProbabilityEffectsExact(t *testing.T) {
 		t.Fatal(err)
 	}
 	l := layoutFrom(t, "data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: [{name: y, type: binary}]\ndynamics: {lags: own, first_occasion: stationary}\nmeans: {over_time: equal}\n", csv)
-	got := derived(l, []float64{0.3, 0.5, 0.6})
+	got := derivedAt(t, l, []float64{0.3, 0.5, 0.6})
 	V := 1 / (1 - 0.36)
 	for _, c := range []struct {
 		scope string
@@ -72,7 +61,7 @@ func TestProbabilityEffectsExact(t *testing.T) {
 		t.Fatal(err)
 	}
 	l = layoutFrom(t, "data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: [{name: y, type: binary}]\ndynamics: {lags: own, moving_average: true}\nmeans: {over_time: equal}\n", csv)
-	got = derived(l, []float64{0.3, 0.5, 0.6, -0.3})
+	got = derivedAt(t, l, []float64{0.3, 0.5, 0.6, -0.3})
 	V = (1 + 2*0.6*-0.3 + 0.09) / (1 - 0.36)
 	for _, c := range []struct {
 		scope string
@@ -106,7 +95,7 @@ func TestProbabilityEffectsExact(t *testing.T) {
 			"ri_correlation[a,b]": 0.1 / math.Sqrt(0.24), "autoregression[a]": 0.5, "crosslag[b->a]": 0, "crosslag[a->b]": 0.25,
 			"autoregression[b]": 0.3, "innovation_correlation[a,b]": 0.2}[p.Name])
 	}
-	got = derived(l, vals)
+	got = derivedAt(t, l, vals)
 	v := []float64{1, 0, 0, 1}
 	for range 2000 { // V = A V A' + S
 		var n [4]float64
@@ -169,14 +158,7 @@ func TestImpulseResponsesExact(t *testing.T) {
 			}
 			vals = append(vals, v)
 		}
-		st := NewState(l, newRand(2))
-		if err := st.Inject(vals); err != nil {
-			t.Fatal(err)
-		}
-		got := map[string]float64{}
-		for k, x := range st.ExtractDerived(nil, NewDerivedWork(l)) {
-			got[l.DerivedParams()[k].Name] = x
-		}
+		got := derivedAt(t, l, vals)
 		names := []string{"a", "b"}
 		for k := 0; k < 2; k++ {
 			z := []float64{0, 0}
@@ -252,14 +234,7 @@ func TestImpulseOrdinal(t *testing.T) {
 		t.Fatal(err)
 	}
 	l := layoutFrom(t, "data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: [{name: y, type: ordinal, categories: 4, lowest: 0}]\ndynamics: {lags: own, impulse_horizon: 3}\nmeans: {over_time: equal}\n", csv)
-	st := NewState(l, newRand(2))
-	if err := st.Inject([]float64{-0.8, 0.1, 0.9, 0.5, 0.6}); err != nil {
-		t.Fatal(err)
-	}
-	got := map[string]float64{}
-	for k, x := range st.ExtractDerived(nil, NewDerivedWork(l)) {
-		got[l.DerivedParams()[k].Name] = x
-	}
+	got := derivedAt(t, l, []float64{-0.8, 0.1, 0.9, 0.5, 0.6})
 	cdf := func(x float64) float64 { return 0.5 * math.Erfc(-x/math.Sqrt2) }
 	pc := func(c int, mu, sd float64) float64 {
 		lo, hi := math.Inf(-1), math.Inf(1)
@@ -300,4 +275,19 @@ func TestImpulseOrdinal(t *testing.T) {
 		}
 		r *= 0.6
 	}
+}
+
+// derivedAt returns the derived quantities, by name, of a state of l with
+// parameters v (in Params order).
+func derivedAt(t *testing.T, l *Layout, v []float64) map[string]float64 {
+	t.Helper()
+	st := NewState(l, newRand(2))
+	if err := st.Inject(v); err != nil {
+		t.Fatal(err)
+	}
+	got := map[string]float64{}
+	for k, x := range st.ExtractDerived(nil, NewDerivedWork(l)) {
+		got[l.DerivedParams()[k].Name] = x
+	}
+	return got
 }

@@ -344,10 +344,12 @@ type GrowthInterweaveBlock struct {
 	kk, v        [][]float64
 }
 
-// NewGrowthInterweaveBlock allocates the block's workspace.
-func NewGrowthInterweaveBlock(l *Layout) *GrowthInterweaveBlock {
+// NewGrowthInterweaveBlock allocates the block's workspace; it shares
+// gb's precisions and per-person sums (the blocks run one after the other
+// and each recomputes them).
+func NewGrowthInterweaveBlock(l *Layout, gb *GrowthBlock) *GrowthInterweaveBlock {
 	n := 2 * l.J
-	ib := &GrowthInterweaveBlock{gb: NewGrowthBlock(l), lc: make([]float64, n*n), old: make([]float64, n*n), inv: make([]float64, n*n),
+	ib := &GrowthInterweaveBlock{gb: gb, lc: make([]float64, n*n), old: make([]float64, n*n), inv: make([]float64, n*n),
 		s0: make([]float64, n*n), eta: shardBufs(l, n), kk: shardBufs(l, n*n), v: shardBufs(l, n)}
 	for a := 0; a < n; a++ {
 		for b := 0; b <= a; b++ {
@@ -486,8 +488,8 @@ func (ib *GrowthInterweaveBlock) sums(st *State, s, lo, hi int) {
 	pp, ph, eta, kk, v := ib.pp[s], ib.ph[s], ib.eta[s], ib.kk[s], ib.v[s]
 	clear(pp)
 	clear(ph)
-	gb.sums(st, s, lo, hi) // h_i into gb.h
 	for i := lo; i < hi; i++ {
+		gb.personH(st, s, i, false) // h_i into gb.h
 		L := l.Panel.Len[i]
 		cum := gb.cum[(L-1)*nn : L*nn]
 		for k := range kk {

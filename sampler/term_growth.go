@@ -232,7 +232,8 @@ func (growthTerm) Prior(s *State, pr priors.Set, rng *rand.Rand) {
 // not raise the effective sample sizes: the slow direction there runs
 // through the latent responses.
 func (growthTerm) Blocks(l *Layout, _ Options) []Placed {
-	return []Placed{{slotIntercepts, NewGrowthBlock(l)}, {slotPsi, NewGrowthCovBlock(l)}, {slotInterweave, NewGrowthInterweaveBlock(l)}}
+	gb := NewGrowthBlock(l)
+	return []Placed{{slotIntercepts, gb}, {slotPsi, NewGrowthCovBlock(l)}, {slotInterweave, NewGrowthInterweaveBlock(l, gb)}}
 }
 
 // DerivedParams: the latent intraclass correlation of each outcome at
