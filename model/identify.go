@@ -61,6 +61,9 @@ func Identify(sp *Spec, pan *Panel) error {
 	if sp.Between.RandomSlopes {
 		identifyGrowth(p, sp, pan)
 	}
+	if sp.Within.LatentLag() {
+		identifyLatentLag(p, sp, pan)
+	}
 	if sp.Within.Lags == LagsCross && J < 2 {
 		p.addf(f, 0, "dynamics.lags: cross needs at least two outcomes (there is %d); use lags: own for one outcome", J)
 	}
@@ -93,6 +96,34 @@ func Identify(sp *Spec, pan *Panel) error {
 		}
 	}
 	return p.err()
+}
+
+// identifyLatentLag checks the occasions a lagged latent response needs.
+// The first occasion is given: its mean, variance and loading on the
+// random intercept are its own, so it must have answers. With random
+// intercepts the model needs four occasions: with three, a binary
+// outcome gives three marginal probabilities and three tetrachoric
+// correlations for as many parameters (the threshold, two intercepts,
+// the intercept variance, the first occasion's loading and the
+// carry-over), none to spare; carry-over free over time adds one path
+// per occasion and needs a fifth.
+func identifyLatentLag(p *problems, sp *Spec, pan *Panel) {
+	f, T := sp.Path, pan.T()
+	for j, o := range pan.Outcomes {
+		if T > 0 && pan.ObservedAt(j)[0] == 0 {
+			p.addf(f, sp.Within.LagOnLine, "dynamics.lag_on: latent_response takes the first occasion (%d) as given, but nobody answered outcome %q there; drop the occasion from the data or use lag_on: residuals", pan.Occasions[0], o.Name)
+		}
+	}
+	if !sp.Between.RandomIntercepts || sp.Within.Lags == LagsNone {
+		return
+	}
+	need, why := 4, "with three, a binary outcome gives three probabilities and three correlations for the threshold, two intercepts, the intercept variance, the first occasion's loading and the carry-over, none to spare"
+	if sp.Within.PathsFree {
+		need, why = 5, "carry-over free over time adds a path per occasion to the four occasions the model needs with equal paths"
+	}
+	if T < need {
+		p.addf(f, sp.Within.LagOnLine, "dynamics.lag_on: latent_response with random intercepts needs at least %d occasions (the data have %d): %s", need, T, why)
+	}
 }
 
 // identifyMovingAverage checks the occasions an ARMA(1,1) within part

@@ -139,7 +139,23 @@ type WithinSpec struct {
 	// ImpulseHorizon (dynamics.impulse_horizon) is the number of
 	// occasions after a shock the impulse responses run to (0: none).
 	ImpulseHorizon int
+	// LagOn (dynamics.lag_on) says what carries over: LagOnResiduals
+	// (the within-person residuals, w_t = A w_{t-1} + zeta_t) or
+	// LagOnLatent (the latent response itself, y*_t = c_t + b + A y*_{t-1}
+	// + zeta_t, the first occasion given). LagOnLine is the key's line.
+	LagOn     string
+	LagOnLine int
 }
+
+// What carries over (dynamics.lag_on).
+const (
+	LagOnResiduals = "residuals"
+	LagOnLatent    = "latent_response"
+)
+
+// LatentLag reports whether the latent response is regressed on its
+// previous value (dynamics.lag_on: latent_response).
+func (w WithinSpec) LatentLag() bool { return w.LagOn == LagOnLatent }
 
 // MeansSpec is the occasion-mean structure.
 type MeansSpec struct {
@@ -187,7 +203,7 @@ var schema = map[string][]string{
 	"data":               {"csv", "person", "occasion", "missing_codes", "separator", "layout", "wide_columns"},
 	"outcomes":           {"name", "display_name", "type", "categories", "lowest", "labels", "empty_categories", "columns"},
 	"person_differences": {"random_intercepts", "random_slopes", "time_scores"},
-	"dynamics":           {"lags", "residual_correlation", "over_time", "first_occasion", "moving_average", "impulse_horizon"},
+	"dynamics":           {"lags", "residual_correlation", "over_time", "first_occasion", "moving_average", "impulse_horizon", "lag_on"},
 	"means":              {"over_time", "anchor"},
 	"sampler":            {"chains", "warmup", "draws", "seed", "threshold_update", "until_converged", "max_draws", "time_limit", "path_moves", "checkpoint_every"},
 }
@@ -259,6 +275,7 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 	sp.Data.Missing = []string{"", "NA"}
 	sp.Within.Lags = LagsCross
 	sp.Within.ImpulseHorizon = 5
+	sp.Within.LagOn = LagOnResiduals
 	sp.Means.Free = true
 	sp.Means.Anchor = AnchorAuto
 	sp.Sampler = SamplerSpec{Chains: 4, Warmup: 1000, Draws: 1000, ThresholdUpdate: ThresholdJoint, UntilConverged: true, MaxDraws: 20000, CheckpointEvery: 500}
@@ -368,6 +385,10 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 		if v, ok := m["impulse_horizon"]; ok {
 			sp.Within.ImpulseHorizon = r.intIn(v, "dynamics.impulse_horizon", 0, 50)
 		}
+		if v, ok := m["lag_on"]; ok {
+			sp.Within.LagOn = r.choice(v, "dynamics.lag_on", LagOnResiduals, LagOnLatent)
+			sp.Within.LagOnLine = v.Line
+		}
 	}
 	if n, ok := top["means"]; ok {
 		m := r.mapping(n, "means")
@@ -432,6 +453,9 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 		// The growth line replaces the occasion means.
 		sp.Means.Free = false
 	}
+	if sp.Within.LatentLag() {
+		sp.checkLatentLag(p)
+	}
 	if !sp.Within.residualSet {
 		sp.Within.ResidualCorrelation = len(sp.Outcomes) > 1
 	}
@@ -448,6 +472,39 @@ func ParseSpec(path string, raw []byte) (*Spec, error) {
 		return nil, err
 	}
 	return sp, nil
+}
+
+// checkLatentLag refuses what dynamics.lag_on: latent_response cannot be
+// combined with, saying why.
+func (sp *Spec) checkLatentLag(p *problems) {
+	f, line := sp.Path, sp.Within.LagOnLine
+	const key = "dynamics.lag_on: latent_response"
+	if sp.Within.Lags == LagsNone {
+		p.addf(f, line, "%s needs dynamics.lags: own or cross; with lags: none there is no previous response to regress on", key)
+	}
+	if sp.Within.MovingAverage {
+		p.addf(f, line, "%s cannot be combined with dynamics.moving_average: true; a moving average of the innovations of a lagged latent response is a different model lagstar does not fit (use lag_on: residuals for ARMA(1,1) residuals)", key)
+	}
+	if sp.Within.StationaryStart {
+		p.addf(f, line, "%s treats the first occasion as given, with its own mean, variance and loading on the random intercept; dynamics.first_occasion: stationary does not apply (leave it out or set it to free)", key)
+	}
+	if sp.Between.RandomSlopes {
+		p.addf(f, line, "%s cannot be combined with person_differences.random_slopes: true; a lagged latent response carries a growth line forward, so the slope and the carry-over are confounded (use lag_on: residuals for growth with autocorrelated residuals)", key)
+	}
+	if sp.Sampler.PathMoves {
+		p.addf(f, line, "%s cannot be combined with sampler.path_moves: true, whose moves assume carry-over of the residuals", key)
+	}
+	if !sp.Means.Free && sp.Within.PathsFree {
+		for _, o := range sp.Outcomes {
+			if o.Type == Continuous {
+				p.addf(f, line, "%s with dynamics.over_time: free and means.over_time: equal: outcome %q is continuous, and an intercept equal over time on its own scale would change with the carry-over on the analysis scale; use means.over_time: free", key, o.Name)
+				break
+			}
+		}
+	}
+	if a := sp.Means.Anchor; a != AnchorAuto && a != AnchorFirst {
+		p.addf(f, line, "%s fixes a categorical outcome's intercept at the first occasion, which is given; means.anchor: %s does not apply (leave it out)", key, a)
+	}
 }
 
 func (sp *Spec) checkOutcomes(p *problems, line int) {

@@ -132,7 +132,7 @@ func Sweep(st *State, blocks []Block, rng *rand.Rand) error {
 func (*LatentPathBlock) Writes() Part { return PartLatent }
 func (*LatentBlock) Writes() Part     { return PartLatent }
 func (*ScaleBlock) Writes() Part {
-	return PartLatent | PartIntercepts | PartThresholds | PartMeans
+	return PartLatent | PartIntercepts | PartThresholds | PartMeans | PartOwn
 }
 func (*ThresholdBlock) Writes() Part { return PartThresholds | PartLatent }
 func (*LevelBlock) Writes() Part     { return PartThresholds | PartLatent | PartMeans }

@@ -48,6 +48,8 @@ func TestBlocksDeclareWrites(t *testing.T) {
 		{mixed, "outcomes: [{name: a, type: binary}, {name: b, type: ordinal, categories: 4}, {name: c, type: continuous}]\ndynamics: {lags: own, first_occasion: stationary}\n", false},
 		{one, "outcomes: [{name: y, type: ordinal, categories: 4}]\ndynamics: {lags: own}\n", false},
 		{binary, "outcomes: [{name: a, type: binary}, {name: b, type: binary}]\ndynamics: {lags: cross, residual_correlation: true}\nmeans: {over_time: free}\n", true},
+		{mixed, "outcomes: [{name: a, type: binary}, {name: b, type: ordinal, categories: 4}, {name: c, type: continuous}]\ndynamics: {lags: cross, residual_correlation: true, lag_on: latent_response}\nmeans: {over_time: free}\n", false},
+		{one, "outcomes: [{name: y, type: ordinal, categories: 4}]\ndynamics: {lags: own, lag_on: latent_response}\n", false},
 	}
 	for ci, c := range cases {
 		csv, err := Simulate(c.tr, 40, 5, newRand(uint64(ci)))

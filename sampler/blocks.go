@@ -17,6 +17,9 @@ import (
 type LatentBlock struct {
 	// Per shard: path scratch, J x J scratch and partial sums of WQuad.
 	w, v, sv, wq [][]float64
+	// bt: per shard, a person's between parts S_t b_i under a lagged
+	// latent response (term_dynamic.go).
+	bt [][]float64
 	// record, when set (benchmarks only), receives every standardized
 	// truncation interval drawn from.
 	record func(a, b float64)
@@ -25,7 +28,11 @@ type LatentBlock struct {
 // NewLatentBlock allocates the block's workspace.
 func NewLatentBlock(l *Layout) *LatentBlock {
 	JJ := l.J * l.J
-	return &LatentBlock{w: shardBufs(l, l.MaxLen*l.J), v: shardBufs(l, JJ), sv: shardBufs(l, JJ), wq: shardBufs(l, JJ)}
+	lb := &LatentBlock{w: shardBufs(l, l.MaxLen*l.J), v: shardBufs(l, JJ), sv: shardBufs(l, JJ), wq: shardBufs(l, JJ)}
+	if l.Dyn {
+		lb.bt = shardBufs(l, l.MaxLen*l.J)
+	}
+	return lb
 }
 
 // Name implements Block.
@@ -60,7 +67,7 @@ func (lb *LatentBlock) updateShard(st *State, s, lo, hi int) {
 	for k := range wq {
 		wq[k] = 0
 	}
-	if J == 1 && l.Cat[0] {
+	if J == 1 && l.Cat[0] && !l.Dyn {
 		lb.updateShard1(st, s, lo, hi)
 		return
 	}
@@ -72,6 +79,15 @@ func (lb *LatentBlock) updateShard(st *State, s, lo, hi int) {
 		var g []float64 // growth: the slopes
 		if st.G != nil {
 			g = st.G[i*J : i*J+J]
+		}
+		var bt []float64 // lagged latent response: the between parts
+		if l.Dyn {
+			bt = lb.bt[s]
+			for t := 0; t < Ti; t++ {
+				for j := 0; j < J; j++ {
+					bt[t*J+j] = st.between(i, t, j)
+				}
+			}
 		}
 		for t := 0; t < Ti; t++ {
 			d := st.DMid[t*JJ : (t+1)*JJ]
@@ -123,6 +139,9 @@ func (lb *LatentBlock) updateShard(st *State, s, lo, hi int) {
 				if g != nil {
 					shift += l.Time[t] * g[j]
 				}
+				if bt != nil {
+					shift = st.Nu[t*J+j] + bt[t*J+j] + mean
+				}
 				tau := st.Tau[j]
 				k := int(y)
 				lo, hi := math.Inf(-1), math.Inf(1)
@@ -143,6 +162,11 @@ func (lb *LatentBlock) updateShard(st *State, s, lo, hi int) {
 			c := t * J
 			for j, bj := range b {
 				st.Ystar[off+c+j] = w[c+j] + st.Nu[c+j] + bj
+			}
+			if bt != nil {
+				for j := range b {
+					st.Ystar[off+c+j] = w[c+j] + st.Nu[c+j] + bt[c+j]
+				}
 			}
 			if g != nil {
 				for j, gj := range g {
@@ -339,7 +363,17 @@ func (ib *InterceptBlock) prepare(st *State) error {
 	ima := ib.tmp[:JJ]
 	for t := 0; t < T; t++ {
 		cum := ib.cum[t*JJ : (t+1)*JJ]
-		if t == 0 {
+		if t == 0 && l.Dyn {
+			// Lagged latent response: zeta_1 = e_1 - Lambda b, so G_1 =
+			// Lambda' Sigma_1^{-1} (term_dynamic.go).
+			_, lam, _ := st.dynParts()
+			dense.MulTA(ib.g[:JJ], lam, st.SigInv[:JJ], J, J, J)
+			hm := ib.tmp[JJ : 2*JJ]
+			dense.Mul(hm, ib.g[:JJ], lam, J, J, J)
+			for k := range cum {
+				cum[k] = ib.psiIn[k] + hm[k]
+			}
+		} else if t == 0 {
 			for k := range cum {
 				cum[k] = ib.psiIn[k] + st.SigInv[k]
 			}
@@ -348,6 +382,12 @@ func (ib *InterceptBlock) prepare(st *State) error {
 			a := st.A[t*JJ : (t+1)*JJ]
 			for k := range ima {
 				ima[k] = -a[k]
+			}
+			if l.Dyn {
+				// zeta_t = (e_t - A_t e_t-1) - b: the design is I.
+				for k := range ima {
+					ima[k] = 0
+				}
 			}
 			for k := 0; k < J; k++ {
 				ima[k*J+k]++
@@ -417,7 +457,11 @@ func (ib *InterceptBlock) personSums(st *State, s, i int, quad bool) float64 {
 	for c := 0; c < Ti*J; c++ {
 		e[c] = st.Ystar[off+c] - st.Nu[c]
 	}
-	dense.MulVec(h, st.SigInv[:JJ], e[:J], J, J)
+	if l.Dyn {
+		dense.MulVec(h, ib.g[:JJ], e[:J], J, J)
+	} else {
+		dense.MulVec(h, st.SigInv[:JJ], e[:J], J, J)
+	}
 	sum := 0.0
 	if quad {
 		for q := 0; q < J; q++ {

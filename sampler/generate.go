@@ -30,6 +30,10 @@ type Generator struct {
 	// slopes, psiChol the Cholesky factor of their covariance; y*_ijt
 	// gains s_t g_ij.
 	Time, GrowthMean []float64
+	// Load holds the between loadings S_t of a lagged latent response
+	// (term_dynamic.go; T blocks of J x J, nil: the identity): y*_ijt =
+	// nu_tj + (S_t b_i)_j + w_itj.
+	Load []float64
 
 	sigChol, psiChol []float64
 	f                []float64 // growth factors of the current person
@@ -86,6 +90,9 @@ func (s *State) Generator() (*Generator, error) {
 	}
 	if err == nil && s.L.Growth {
 		err = g.SetGrowth(s.L.Time, s.GMean, s.Psi)
+	}
+	if err == nil && s.L.Dyn {
+		g.Load = s.Load
 	}
 	return g, err
 }
@@ -149,6 +156,12 @@ func (g *Generator) Person(n int, rng *rand.Rand, b []float64, cell func(t, j in
 				nu = g.Nu[t*J+j]
 			}
 			y := nu + b[j] + cur[j]
+			if g.Load != nil {
+				y = nu + cur[j]
+				for k, bk := range b {
+					y += g.Load[(t*J+j)*J+k] * bk
+				}
+			}
 			if slope != nil {
 				y += g.Time[t] * slope[j]
 			}

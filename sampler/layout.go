@@ -42,6 +42,16 @@ type Layout struct {
 	// Horizon is the number of occasions the impulse responses run to
 	// (term_impulse.go; 0: none).
 	Horizon int
+	// Dyn: the latent response is regressed on its previous value
+	// (dynamics.lag_on: latent_response; term_dynamic.go). DynIdx[t*J+j]
+	// is the index of the free intercept c_tj of the dynamic equation
+	// (-1: fixed at 0), NDyn their number; LoadFree[r*J+c] marks the free
+	// loadings of the first occasion on the random intercepts. The
+	// dynamic intercepts replace the occasion means (NMean = 0).
+	Dyn      bool
+	DynIdx   []int
+	NDyn     int
+	LoadFree []bool
 
 	// MeanIdx[t*J+j] is the index of the free mean parameter of outcome j at
 	// grid occasion t, or -1 where the mean is fixed at 0: a categorical
@@ -99,7 +109,8 @@ func NewLayout(sp *model.Spec, pan *model.Panel, pr priors.Set) *Layout {
 	l := &Layout{Spec: sp, Panel: pan, Priors: pr, J: J, T: T, N: len(pan.Persons),
 		RI: sp.Between.RandomIntercepts, Lags: sp.Within.Lags, ResCorr: sp.Within.ResidualCorrelation,
 		PathsFree: sp.Within.PathsFree, Stat: sp.Within.StationaryStart, MeansFree: sp.Means.Free,
-		MA: sp.Within.MovingAverage && pan.T() > 2, Growth: sp.Between.RandomSlopes, Horizon: sp.Within.ImpulseHorizon}
+		MA: sp.Within.MovingAverage && pan.T() > 2, Growth: sp.Between.RandomSlopes, Horizon: sp.Within.ImpulseHorizon,
+		Dyn: sp.Within.LatentLag() && sp.Within.Lags != model.LagsNone && pan.T() > 1}
 	if l.Growth {
 		l.Time = model.TimeScores(sp, pan)
 	}
@@ -130,7 +141,7 @@ func NewLayout(sp *model.Spec, pan *model.Panel, pr priors.Set) *Layout {
 		l.MeanIdx[i] = -1
 	}
 	unanswered := make([][]string, J)
-	for t := 0; t < T; t++ {
+	for t := 0; t < T && !l.Dyn; t++ {
 		for j := 0; j < J; j++ {
 			if l.MeansFree && t != l.Anchor[j] && observed[j][t] > 0 {
 				l.MeanIdx[t*J+j] = l.NMean
@@ -145,7 +156,10 @@ func NewLayout(sp *model.Spec, pan *model.Panel, pr priors.Set) *Layout {
 			l.Notes = append(l.Notes, fmt.Sprintf("outcome %q was answered by nobody at occasion %s: no mean is estimated there (it would rest on the prior alone) and the mean stays fixed there (at the anchor occasion's level for a categorical outcome, at the overall mean for a continuous one)", pan.Outcomes[j].Name, strings.Join(occ, ", ")))
 		}
 	}
-	if !l.MeansFree && !l.Growth {
+	if l.Dyn {
+		l.dynLayout(observed)
+	}
+	if !l.MeansFree && !l.Growth && !l.Dyn {
 		for j := 0; j < J; j++ {
 			if !l.Cat[j] {
 				for t := 0; t < T; t++ {
@@ -265,11 +279,12 @@ func (l *Layout) occasionLists() (paths, icc, trans []int) {
 	if l.PathsFree {
 		paths, icc = from(1), from(0)
 	}
-	if l.Growth {
-		// The between variance changes along the growth line.
+	if l.Growth || l.Dyn {
+		// The between variance changes along the growth line, or with
+		// the lagged latent response.
 		icc = from(0)
 	}
-	if l.PathsFree || l.MeansFree || l.Growth {
+	if l.PathsFree || l.MeansFree || l.Growth || l.Dyn {
 		trans = from(1)
 	}
 	return paths, icc, trans

@@ -18,6 +18,7 @@ var registry = []registryEntry{
 	{term: interceptTerm{}, draw: 6, derived: 2},
 	{term: growthTerm{}, draw: 9, derived: 6},
 	{term: pathTerm{}, draw: 3, derived: 1},
+	{term: dynamicTerm{}, draw: 10},
 	{term: movingAverageTerm{}, draw: 7, derived: 5},
 	{term: innovationTerm{}, draw: 4},
 	{term: firstOccasionTerm{}, draw: 5},
@@ -46,6 +47,7 @@ const (
 	slotLevel       = 50 // LevelBlock
 	slotCollapsed   = 60 // CollapsedBlock
 	slotIntercepts  = 70 // InterceptBlock
+	slotLoadings    = 75 // LoadingBlock (lagged latent response)
 	slotLocation    = 80 // LocationBlock
 	slotMeans       = 90 // MeanBlock
 	slotPaths       = 100

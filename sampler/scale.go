@@ -19,7 +19,11 @@ import (
 // exp(d eta - a e^{2 eta}/2 + c e^{eta}), a and c collecting the quadratic
 // forms of the within paths, the random intercepts and the normal priors;
 // it is drawn by an independence Metropolis-Hastings step from the normal
-// approximation at its mode. Reads and writes Ystar, B, Tau, Mean, Nu.
+// approximation at its mode. Under a lagged latent response with own lags
+// only (term_dynamic.go) the intercepts of outcome j's dynamic equation
+// scale with it, and with A and Lambda diagonal its innovations still
+// scale by g; with cross-lags they would not, and the move is not used.
+// Reads and writes Ystar, B, Tau, Mean, Nu.
 type ScaleBlock struct {
 	m, r    []float64 // J x J sums of the quadratic forms
 	v, sv   []float64 // J x J shares of the innovation and Sigma^{-1} times them
@@ -29,6 +33,7 @@ type ScaleBlock struct {
 	meansOf [][]int
 	d       []float64 // scaled coordinates per outcome
 	ma      []float64 // ARMA(1,1) scratch (accumulateWQuadMA)
+	dynOf   [][]int   // lagged latent response: each outcome's free intercepts
 }
 
 // NewScaleBlock allocates the block's workspace.
@@ -40,6 +45,10 @@ func NewScaleBlock(l *Layout) *ScaleBlock {
 		sb.ma = make([]float64, (l.J+1)*l.MaxLen*l.J+l.J)
 	}
 	J := l.J
+	if l.Dyn {
+		sb.dynOf = make([][]int, J)
+		eachDyn(l, func(idx, _, j int) { sb.dynOf[j] = append(sb.dynOf[j], idx) })
+	}
 	for j := 0; j < J; j++ {
 		if !l.Cat[j] {
 			continue
@@ -54,6 +63,9 @@ func NewScaleBlock(l *Layout) *ScaleBlock {
 		}
 		if l.Growth {
 			d += float64(l.N) + 1 // the slopes and the mean slope
+		}
+		if l.Dyn {
+			d += float64(len(sb.dynOf[j]))
 		}
 		sb.d[j] = d
 	}
@@ -129,6 +141,13 @@ func (sb *ScaleBlock) Update(st *State, rng *rand.Rand) error {
 		for _, idx := range sb.meansOf[j] {
 			a += iv * st.Mean[idx] * st.Mean[idx]
 		}
+		var dc []float64
+		if l.Dyn {
+			dc, _, _ = st.dynParts()
+			for _, idx := range sb.dynOf[j] {
+				a += iv * dc[idx] * dc[idx]
+			}
+		}
 		if l.Growth {
 			sd := growthMeanSD(l, l.Priors, J+j)
 			a += st.GMean[J+j] * st.GMean[J+j] / (sd * sd)
@@ -169,6 +188,11 @@ func (sb *ScaleBlock) Update(st *State, rng *rand.Rand) error {
 		}
 		for _, idx := range sb.meansOf[j] {
 			st.Mean[idx] *= g
+		}
+		if l.Dyn {
+			for _, idx := range sb.dynOf[j] {
+				dc[idx] *= g
+			}
 		}
 	}
 	st.SyncNu()

@@ -30,6 +30,13 @@ type Truth struct {
 	// replaces Psi, with the means GrowthMean (2J) and the time scores
 	// Time (one per occasion; nil: 0, 1, 2, ...).
 	GrowthPsi, GrowthMean, Time []float64
+	// Lag regresses the latent response on its previous value
+	// (term_dynamic.go): y*_i1 = c_1 + Loadings b_i + zeta_i1, y*_it = c_t +
+	// b_i + A y*_i,t-1 + zeta_it, with the intercepts LagIntercepts (T x J,
+	// nil: 0) and the first occasion's loadings Loadings (J x J, nil: the
+	// identity); Nu is not used. It needs Sigma1.
+	Lag                     bool
+	LagIntercepts, Loadings []float64
 	// Missing is the probability that a cell is missing; such cells are
 	// written as MissingCode ("NA" when empty and MissingSet is false).
 	Missing     float64
@@ -99,6 +106,26 @@ func Simulate(tr Truth, n, t int, rng *rand.Rand) ([]byte, error) {
 		if err := g.SetGrowth(time, mean, tr.GrowthPsi); err != nil {
 			return nil, fmt.Errorf("simulate: %v", err)
 		}
+	}
+	if tr.Lag {
+		if tr.Sigma1 == nil {
+			return nil, fmt.Errorf("simulate: a lagged latent response needs a first-occasion covariance")
+		}
+		lam := tr.Loadings
+		if lam == nil {
+			lam = make([]float64, JJ)
+			for j := 0; j < J; j++ {
+				lam[j*J+j] = 1
+			}
+		}
+		c := func(s, j int) float64 {
+			if tr.LagIntercepts == nil {
+				return 0
+			}
+			return tr.LagIntercepts[s*J+j]
+		}
+		g.Nu, g.Load = make([]float64, t*J), make([]float64, t*JJ)
+		dynRecursion(g.Nu, g.Load, c, at, lam, J, t)
 	}
 	if tr.MA != nil {
 		g.M = make([]float64, t*J)

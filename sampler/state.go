@@ -34,6 +34,10 @@ type State struct {
 	// GMean the means of the intercepts and slopes (2J); both live in
 	// the growth term's own storage. nil without growth.
 	G, GMean []float64
+	// Load holds the between loadings S_t (T blocks of J x J) of the
+	// lagged latent response (term_dynamic.go): the between part at
+	// occasion t is S_t b_i. nil without the term.
+	Load []float64
 
 	// Caches refreshed by Refresh.
 	SigInv []float64 // Sigma_t^{-1}
@@ -121,6 +125,9 @@ func NewState(l *Layout, rng *rand.Rand) *State {
 		o := s.Own(growthTerm{})
 		s.GMean, s.G = o[:2*J], o[2*J:]
 	}
+	if l.Dyn {
+		_, _, s.Load = s.dynParts()
+	}
 	s.Mom = newMoments(l)
 	s.quadW, s.quadZ, s.quadPart = shardBufs(l, l.MaxLen*J), shardBufs(l, max(J, l.MaxLen*J)), make([]float64, len(l.ShardStart)-1)
 	split := false
@@ -179,6 +186,10 @@ func (s *State) interval(j, k int) (float64, float64) {
 func (s *State) SyncNu() {
 	s.WQuadOK = false
 	s.Mom.ok = false
+	if s.L.Dyn {
+		s.syncDyn()
+		return
+	}
 	for i, idx := range s.L.MeanIdx {
 		if idx >= 0 {
 			s.Nu[i] = s.Mean[idx]
@@ -205,6 +216,11 @@ func (s *State) groupCov(dst []float64, g int) {
 func (s *State) Refresh() error {
 	s.WQuadOK = false
 	l := s.L
+	if l.Dyn {
+		// m_t and S_t follow the carry-over (the blocks that change it
+		// declare the means changed, so the moments go stale).
+		s.syncDyn()
+	}
 	J, T := l.J, l.T
 	JJ := J * J
 	for t := 0; t < T; t++ {
@@ -277,6 +293,20 @@ func (s *State) fillW(w []float64, i int, ys []float64) {
 	J := l.J
 	off := l.Panel.Offset[i]
 	b := s.B[i*J : i*J+J]
+	if s.Load != nil {
+		for t := 0; t < l.Panel.Len[i]; t++ {
+			c := t * J
+			ld := s.Load[c*J : (c+J)*J]
+			for j := 0; j < J; j++ {
+				v := ys[off+c+j] - s.Nu[c+j]
+				for k, bk := range b {
+					v -= ld[j*J+k] * bk
+				}
+				w[c+j] = v
+			}
+		}
+		return
+	}
 	if s.G != nil {
 		g := s.G[i*J : i*J+J]
 		for t := 0; t < l.Panel.Len[i]; t++ {
@@ -303,6 +333,14 @@ func (s *State) between(i, t, j int) float64 {
 	if s.G != nil {
 		return s.B[i*J+j] + s.L.Time[t]*s.G[i*J+j]
 	}
+	if s.Load != nil {
+		ld := s.Load[(t*J+j)*J : (t*J+j+1)*J]
+		v := 0.0
+		for k, x := range ld {
+			v += x * s.B[i*J+k]
+		}
+		return v
+	}
 	return s.B[i*J+j]
 }
 
@@ -323,6 +361,18 @@ func (s *State) BetweenCov(t1, a, t2, b int) float64 {
 	l := s.L
 	if !l.RI {
 		return 0
+	}
+	if s.Load != nil {
+		// (S_t1 Psi S_t2')[a, b]
+		J := l.J
+		r1, r2 := s.Load[(t1*J+a)*J:(t1*J+a+1)*J], s.Load[(t2*J+b)*J:(t2*J+b+1)*J]
+		v := 0.0
+		for p, x := range r1 {
+			for q, y := range r2 {
+				v += x * s.Psi[p*J+q] * y
+			}
+		}
+		return v
 	}
 	if s.G == nil {
 		return s.Psi[a*l.J+b]

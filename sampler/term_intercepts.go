@@ -92,6 +92,13 @@ func (interceptTerm) Prior(s *State, pr priors.Set, rng *rand.Rand) {
 // with several outcomes the non-centred draw of its scales (interweaving).
 func (interceptTerm) Blocks(l *Layout, opt Options) []Placed {
 	plain := opt.ThresholdUpdate == model.ThresholdAlbertChib
+	if l.Dyn {
+		// Lagged latent response: the intercepts' design is the first
+		// occasion's loadings and then the identity (InterceptBlock); the
+		// collapsed, location and interweaving moves assume the residual
+		// form and are left out.
+		return []Placed{{slotIntercepts, NewInterceptBlock(l)}, {slotPsi, NewPsiBlock(l)}}
+	}
 	if l.MA {
 		// The collapsed and interweaving moves rely on the
 		// autoregressive structure; the Gibbs blocks are exact under
@@ -159,6 +166,11 @@ func (interceptTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []
 		}
 		for j := 0; j < J; j++ {
 			p := s.Psi[j*J+j]
+			if l.Dyn {
+				// The between variance of the latent response at t:
+				// (S_t Psi S_t')[j, j] (term_dynamic.go).
+				p = s.BetweenCov(t, j, t, j)
+			}
 			dst = append(dst, p/(p+cur[j*J+j]))
 		}
 	}

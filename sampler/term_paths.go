@@ -26,6 +26,11 @@ func (pathTerm) Active(l *Layout) bool { return l.HasPaths() && l.T > 1 }
 func pathParams(l *Layout, prefix string) []Param {
 	var ps []Param
 	names := l.outcomeNames()
+	ar, cl := prefix+"autoregression", prefix+"crosslag"
+	if l.Dyn {
+		// The carry-over of the latent response itself (term_dynamic.go).
+		ar, cl = prefix+"latent_autoregression", prefix+"latent_crosslag"
+	}
 	for _, t := range l.pathOccasions() {
 		suffix := ""
 		var o *int
@@ -39,9 +44,9 @@ func pathParams(l *Layout, prefix string) []Param {
 					continue
 				}
 				if r == c {
-					ps = append(ps, Param{Name: fmt.Sprintf("%sautoregression[%s%s]", prefix, names[r], suffix), Kind: prefix + "autoregression", Outcome: names[r], Occasion: o})
+					ps = append(ps, Param{Name: fmt.Sprintf("%s[%s%s]", ar, names[r], suffix), Kind: ar, Outcome: names[r], Occasion: o})
 				} else {
-					ps = append(ps, Param{Name: fmt.Sprintf("%scrosslag[%s->%s%s]", prefix, names[c], names[r], suffix), Kind: prefix + "crosslag", Outcome: names[r], From: names[c], Occasion: o})
+					ps = append(ps, Param{Name: fmt.Sprintf("%s[%s->%s%s]", cl, names[c], names[r], suffix), Kind: cl, Outcome: names[r], From: names[c], Occasion: o})
 				}
 			}
 		}
@@ -134,6 +139,9 @@ func (pathTerm) Prior(s *State, pr priors.Set, rng *rand.Rand) {
 func (pathTerm) Blocks(l *Layout, _ Options) []Placed {
 	if l.MA {
 		return nil // the moving-average term's block draws the paths too
+	}
+	if l.Dyn {
+		return []Placed{{slotPaths, NewLagPathBlock(l)}} // dynamic.go
 	}
 	return []Placed{{slotPaths, NewPathBlock(l)}}
 }

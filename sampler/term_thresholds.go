@@ -103,6 +103,15 @@ func (thresholdTerm) Prior(s *State, pr priors.Set, rng *rand.Rand) {
 func (thresholdTerm) Blocks(l *Layout, opt Options) []Placed {
 	update := opt.ThresholdUpdate
 	plain := update == model.ThresholdAlbertChib
+	if l.Dyn {
+		// Lagged latent response: the scale move is exact with own lags
+		// only (ScaleBlock); the level move assumes the residual form.
+		ps := []Placed{{slotThresholds, NewThresholdBlock(l, update)}}
+		if !plain && l.Lags == model.LagsOwn {
+			ps = append(ps, Placed{slotScale, NewScaleBlock(l)})
+		}
+		return ps
+	}
 	if l.MA {
 		// The scale move reads the within paths' quadratic forms, which
 		// the innovation recursion gives under ARMA(1,1) too

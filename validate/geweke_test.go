@@ -47,6 +47,11 @@ func TestGewekeJointDistribution(t *testing.T) {
 		// Growth (sampler/growth.go): the factors drawn with their means
 		// integrated out, their covariance, the scale move with slopes.
 		{"growth", cross, "", sampler.Options{ThresholdUpdate: model.ThresholdJoint}},
+		// Lagged latent response (sampler/dynamic.go): intercepts,
+		// first-occasion loadings and carry-over of the dynamic form,
+		// the random intercepts with its design.
+		{"latent lag", cross + ", lag_on: latent_response", "over_time: free", sampler.Options{ThresholdUpdate: model.ThresholdJoint}},
+		{"latent lag, own", "lags: own, lag_on: latent_response", eqM, sampler.Options{ThresholdUpdate: model.ThresholdJoint}},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			t.Parallel()

@@ -1,0 +1,311 @@
+package sampler
+
+import (
+	"math/rand/v2"
+
+	"github.com/lagstar/lagstar/internal/dense"
+)
+
+// Gibbs blocks of the lagged latent response (term_dynamic.go). Each works
+// in the dynamic form, where the innovations are
+//
+//	zeta_i1 = y*_i1 - c_1 - Lambda b_i,   zeta_it = y*_it - c_t - b_i - A_t y*_i,t-1 (t >= 2),
+//
+// independent N(0, Sigma_t), so with the other parameters fixed the
+// intercepts, the loadings and the carry-over each enter linearly and have
+// normal full conditionals. The random intercepts are drawn by
+// InterceptBlock, whose design for this model is Lambda at the first
+// occasion and the identity after it.
+
+// LagInterceptBlock draws the free intercepts c of the dynamic equation
+// from their joint normal full conditional: c_t enters zeta_t alone, so
+// with r_it = zeta_it + c_t and R_t = sum_i r_it over the n_t persons
+// present at t, the precision is I/sd^2 + sum_t n_t Sigma_t^{-1} and the
+// linear term sum_t Sigma_t^{-1} R_t, both restricted to the free entries
+// (an intercept equal over time pools its occasions). Reads Ystar, B, A,
+// the loadings and Sigma; writes the intercepts, hence Nu.
+type LagInterceptBlock struct {
+	sum     []float64 // T x J: R_t
+	prec, h []float64
+	r       []float64
+}
+
+// NewLagInterceptBlock allocates the block's workspace.
+func NewLagInterceptBlock(l *Layout) *LagInterceptBlock {
+	n := l.NDyn
+	return &LagInterceptBlock{sum: make([]float64, l.T*l.J), prec: make([]float64, n*n), h: make([]float64, n), r: make([]float64, l.J)}
+}
+
+// Name implements Block.
+func (*LagInterceptBlock) Name() string { return "intercepts of the lagged equation" }
+
+// Writes implements Block.
+func (*LagInterceptBlock) Writes() Part { return PartMeans | PartOwn }
+
+// lagResiduals calls fn(t, r) for each occasion t of person i with r =
+// zeta_it + c_t: y*_i1 - Lambda b_i, or y*_it - b_i - A_t y*_i,t-1. r is
+// scratch of J values.
+func lagResiduals(st *State, i int, r []float64, fn func(t int, r []float64)) {
+	l := st.L
+	J := l.J
+	JJ := J * J
+	_, lam, _ := st.dynParts()
+	off := l.Panel.Offset[i]
+	b := st.B[i*J : i*J+J]
+	for t := 0; t < l.Panel.Len[i]; t++ {
+		y := st.Ystar[off+t*J : off+(t+1)*J]
+		for q := 0; q < J; q++ {
+			v := y[q]
+			if t == 0 {
+				for k, bk := range b {
+					v -= lam[q*J+k] * bk
+				}
+			} else {
+				v -= b[q]
+				a := st.A[t*JJ+q*J : t*JJ+(q+1)*J]
+				for k, ak := range a {
+					v -= ak * st.Ystar[off+(t-1)*J+k]
+				}
+			}
+			r[q] = v
+		}
+		fn(t, r)
+	}
+}
+
+// Update implements Block.
+func (lb *LagInterceptBlock) Update(st *State, rng *rand.Rand) error {
+	l := st.L
+	J, T, n := l.J, l.T, l.NDyn
+	JJ := J * J
+	if n == 0 {
+		return nil
+	}
+	for k := range lb.sum {
+		lb.sum[k] = 0
+	}
+	buf := lb.r
+	for i := 0; i < l.N; i++ {
+		lagResiduals(st, i, buf, func(t int, r []float64) {
+			for q, v := range r {
+				lb.sum[t*J+q] += v
+			}
+		})
+	}
+	for k := range lb.prec {
+		lb.prec[k] = 0
+	}
+	iv := 1 / (l.Priors.MeanSD * l.Priors.MeanSD)
+	for k := 0; k < n; k++ {
+		lb.prec[k*n+k] = iv
+		lb.h[k] = 0
+	}
+	for t := 0; t < T; t++ {
+		nt := float64(l.CountAt[t])
+		si := st.SigInv[t*JJ : (t+1)*JJ]
+		for a := 0; a < J; a++ {
+			ia := l.DynIdx[t*J+a]
+			if ia < 0 {
+				continue
+			}
+			for b := 0; b < J; b++ {
+				lb.h[ia] += si[a*J+b] * lb.sum[t*J+b]
+				if ib := l.DynIdx[t*J+b]; ib >= 0 {
+					lb.prec[ia*n+ib] += nt * si[a*J+b]
+				}
+			}
+		}
+	}
+	if !dense.Cholesky(lb.prec, n) {
+		return errBlock("intercepts of the lagged equation", "conditional precision is not positive definite")
+	}
+	dense.SolveLower(lb.prec, n, lb.h)
+	for k := range lb.h {
+		lb.h[k] += rng.NormFloat64()
+	}
+	dense.SolveUpperT(lb.prec, n, lb.h)
+	c, _, _ := st.dynParts()
+	copy(c, lb.h)
+	st.SyncNu()
+	return nil
+}
+
+// matrixRegression draws the free entries (free, indices r*J+c) of a J x J
+// matrix B in y = B x + e, e ~ N(0, Sigma), from their normal full
+// conditional: with S11 = sum x x' and S01 = sum y x', vec(B) has
+// precision (S11 kron Sigma^{-1}) + I/sd^2 and linear term
+// vec(Sigma^{-1} S01) + mean/sd^2, restricted to the free entries (the
+// multivariate regression of e.g. Zellner 1971, ch. 8). prior gives the
+// prior mean of entry k. It writes the draw into dst (J x J; entries not
+// free are left alone) and returns false when the precision is not
+// positive definite. prec (n x n), h (n) and m (J x J) are scratch.
+func matrixRegression(rng *rand.Rand, dst []float64, free []int, s11, s01, si []float64, J int, sd float64, prior func(k int) float64, prec, h, m []float64) bool {
+	n := len(free)
+	dense.Mul(m, si, s01, J, J, J)
+	iv := 1 / (sd * sd)
+	for p1, f1 := range free {
+		r1, c1 := f1/J, f1%J
+		h[p1] = m[r1*J+c1] + iv*prior(f1)
+		for p2, f2 := range free {
+			r2, c2 := f2/J, f2%J
+			prec[p1*n+p2] = s11[c1*J+c2] * si[r1*J+r2]
+		}
+		prec[p1*n+p1] += iv
+	}
+	if !dense.Cholesky(prec, n) {
+		return false
+	}
+	dense.SolveLower(prec, n, h)
+	for k := range h {
+		h[k] += rng.NormFloat64()
+	}
+	dense.SolveUpperT(prec, n, h)
+	for p, f := range free {
+		dst[f] = h[p]
+	}
+	return true
+}
+
+// LoadingBlock draws the first occasion's loadings Lambda on the random
+// intercepts: the regression of y*_i1 - c_1 on b_i with innovation
+// covariance Sigma_1 (matrixRegression; prior normal(1, PathSD^2) on the
+// diagonal, normal(0, PathSD^2) off it). Reads Ystar, B, the intercepts
+// and Sigma_1; writes the loadings, hence the between parts S_t b_i.
+type LoadingBlock struct {
+	free          []int
+	s11, s01      []float64
+	prec, h, m, r []float64
+}
+
+// NewLoadingBlock allocates the block's workspace.
+func NewLoadingBlock(l *Layout) *LoadingBlock {
+	J := l.J
+	lb := &LoadingBlock{s11: make([]float64, J*J), s01: make([]float64, J*J), m: make([]float64, J*J), r: make([]float64, J)}
+	for k, f := range l.LoadFree {
+		if f {
+			lb.free = append(lb.free, k)
+		}
+	}
+	n := len(lb.free)
+	lb.prec, lb.h = make([]float64, n*n), make([]float64, n)
+	return lb
+}
+
+// Name implements Block.
+func (*LoadingBlock) Name() string { return "first-occasion loadings" }
+
+// Writes implements Block.
+func (*LoadingBlock) Writes() Part { return PartOwn | PartIntercepts }
+
+// Update implements Block.
+func (lb *LoadingBlock) Update(st *State, rng *rand.Rand) error {
+	l := st.L
+	J := l.J
+	c, lam, _ := st.dynParts()
+	for k := range lb.s11 {
+		lb.s11[k], lb.s01[k] = 0, 0
+	}
+	for i := 0; i < l.N; i++ {
+		off := l.Panel.Offset[i]
+		b := st.B[i*J : i*J+J]
+		for q := 0; q < J; q++ {
+			lb.r[q] = st.Ystar[off+q] - st.dynIntercept(c, 0, q)
+		}
+		for a := 0; a < J; a++ {
+			for k := 0; k < J; k++ {
+				lb.s11[a*J+k] += b[a] * b[k]
+				lb.s01[a*J+k] += lb.r[a] * b[k]
+			}
+		}
+	}
+	prior := func(k int) float64 {
+		if k%(J+1) == 0 {
+			return 1
+		}
+		return 0
+	}
+	if !matrixRegression(rng, lam, lb.free, lb.s11, lb.s01, st.SigInv[:J*J], J, l.Priors.PathSD, prior, lb.prec, lb.h, lb.m) {
+		return errBlock("first-occasion loadings", "conditional precision is not positive definite")
+	}
+	st.SyncNu()
+	return nil
+}
+
+// LagPathBlock draws the carry-over A_t of the latent response: the
+// regression of y*_it - c_t - b_i on y*_i,t-1 with innovation covariance
+// Sigma_t (matrixRegression; prior normal(0, PathSD^2)), the occasions
+// pooled when paths are equal over time. No stability is imposed: the
+// first occasion is given, not stationary. Reads Ystar, B, the
+// intercepts and Sigma; writes A, hence Nu and the between parts.
+type LagPathBlock struct {
+	free          []int
+	s11, s01      []float64 // T blocks
+	prec, h, m, r []float64
+	cur           []float64
+}
+
+// NewLagPathBlock allocates the block's workspace.
+func NewLagPathBlock(l *Layout) *LagPathBlock {
+	J := l.J
+	JJ := J * J
+	pb := &LagPathBlock{s11: make([]float64, l.T*JJ), s01: make([]float64, l.T*JJ), m: make([]float64, JJ), r: make([]float64, J), cur: make([]float64, JJ)}
+	for k, f := range l.PathFree {
+		if f {
+			pb.free = append(pb.free, k)
+		}
+	}
+	n := len(pb.free)
+	pb.prec, pb.h = make([]float64, n*n), make([]float64, n)
+	return pb
+}
+
+// Name implements Block.
+func (*LagPathBlock) Name() string { return "carry-over of the latent response" }
+
+// Writes implements Block.
+func (*LagPathBlock) Writes() Part { return PartPaths | PartMeans | PartOwn | PartIntercepts }
+
+// Update implements Block.
+func (pb *LagPathBlock) Update(st *State, rng *rand.Rand) error {
+	l := st.L
+	J, T := l.J, l.T
+	JJ := J * J
+	c, _, _ := st.dynParts()
+	for k := range pb.s11 {
+		pb.s11[k], pb.s01[k] = 0, 0
+	}
+	for i := 0; i < l.N; i++ {
+		off := l.Panel.Offset[i]
+		b := st.B[i*J : i*J+J]
+		for t := 1; t < l.Panel.Len[i]; t++ {
+			slot := t
+			if !l.PathsFree {
+				slot = 1
+			}
+			s11, s01 := pb.s11[slot*JJ:(slot+1)*JJ], pb.s01[slot*JJ:(slot+1)*JJ]
+			x := st.Ystar[off+(t-1)*J : off+t*J]
+			for q := 0; q < J; q++ {
+				pb.r[q] = st.Ystar[off+t*J+q] - st.dynIntercept(c, t, q) - b[q]
+			}
+			for a := 0; a < J; a++ {
+				for k := 0; k < J; k++ {
+					s11[a*J+k] += x[a] * x[k]
+					s01[a*J+k] += pb.r[a] * x[k]
+				}
+			}
+		}
+	}
+	last := T - 1
+	if !l.PathsFree {
+		last = min(1, T-1)
+	}
+	zero := func(int) float64 { return 0 }
+	for t := 1; t <= last; t++ {
+		copy(pb.cur, st.A[t*JJ:(t+1)*JJ])
+		if !matrixRegression(rng, pb.cur, pb.free, pb.s11[t*JJ:(t+1)*JJ], pb.s01[t*JJ:(t+1)*JJ], st.SigInv[t*JJ:(t+1)*JJ], J, l.Priors.PathSD, zero, pb.prec, pb.h, pb.m) {
+			return errBlock("carry-over of the latent response", "conditional precision is not positive definite")
+		}
+		st.setPaths(t, pb.cur)
+	}
+	return st.Refresh()
+}

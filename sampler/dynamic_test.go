@@ -1,0 +1,86 @@
+package sampler
+
+import (
+	"fmt"
+	"math"
+	"testing"
+
+	"github.com/lagstar/lagstar/model"
+)
+
+// lagTruthValues maps the parameter names of a lagged-latent-response
+// layout to their values in tr (intercepts free over time or equal from
+// the second occasion on, as the layout has them).
+func lagTruthValues(tr Truth, l *Layout) map[string]float64 {
+	out := truthValues(tr, l)
+	J := l.J
+	n := tr.Names
+	for j := 0; j < J; j++ {
+		for t, o := range l.Panel.Occasions {
+			c := 0.0
+			if tr.LagIntercepts != nil {
+				c = tr.LagIntercepts[t*J+j]
+			}
+			out[fmt.Sprintf("lag_intercept[%s,t=%d]", n[j], o)] = c
+			if t == 1 {
+				out[fmt.Sprintf("lag_intercept[%s]", n[j])] = c
+			}
+		}
+		for k := 0; k < J; k++ {
+			lam := 0.0
+			if j == k {
+				lam = 1
+			}
+			if tr.Loadings != nil {
+				lam = tr.Loadings[j*J+k]
+			}
+			out[fmt.Sprintf("first_loading[%s<-ri:%s]", n[j], n[k])] = lam
+			if j == k {
+				out[fmt.Sprintf("latent_autoregression[%s]", n[j])] = tr.A[j*J+j]
+			} else {
+				out[fmt.Sprintf("latent_crosslag[%s->%s]", n[k], n[j])] = tr.A[j*J+k]
+			}
+		}
+	}
+	return out
+}
+
+// TestRecoveryLatentLag fits lagged latent responses (a binary outcome
+// with random intercepts; an ordinal and a continuous outcome with
+// cross-lags and intercepts free over time) to data simulated from known
+// values and requires the 95% intervals to cover at least 90% of them.
+func TestRecoveryLatentLag(t *testing.T) {
+	if testing.Short() {
+		t.Skip("recovery fits skipped in -short mode")
+	}
+	cases := []recoveryCase{
+		{
+			name: "binary, random intercepts",
+			yaml: `
+data: {csv: x.csv, person: person, occasion: occasion}
+outcomes: [{name: y, type: binary}]
+dynamics: {lags: own, lag_on: latent_response}
+means: {over_time: equal}
+`,
+			tr: Truth{Names: []string{"y"}, Types: []model.OutcomeType{model.Binary}, Tau: [][]float64{{0.3}},
+				Psi: []float64{0.5}, A: []float64{0.4}, Sigma: []float64{1}, Sigma1: []float64{1}, Lag: true,
+				LagIntercepts: []float64{0, -0.2, -0.2, -0.2, -0.2, -0.2}, Loadings: []float64{1.6}, Missing: 0.05},
+			n: 800, periods: 6,
+		},
+		{
+			name: "ordinal and continuous, cross-lagged",
+			yaml: `
+data: {csv: x.csv, person: person, occasion: occasion}
+outcomes: [{name: a, type: ordinal, categories: 4, lowest: 0}, {name: b, type: continuous}]
+dynamics: {lags: cross, lag_on: latent_response}
+`,
+			tr: Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Ordinal, model.Continuous}, Tau: [][]float64{{-0.8, 0, 0.9}, nil},
+				Psi: []float64{0.4, 0.1, 0.1, 0.5}, A: []float64{0.3, 0.15, -0.1, 0.35}, Sigma: []float64{1, 0.3, 0.3, 0.8}, Sigma1: []float64{1, 0.2, 0.2, 1.2}, Lag: true,
+				LagIntercepts: []float64{0, 2, 0.1, 1.2, 0.2, 1.4, 0, 1.3, 0.3, 1.5}, Loadings: []float64{1.3, 0.2, -0.1, 1.5}, Missing: 0.05},
+			n: 600, periods: 5,
+		},
+	}
+	runRecovery(t, cases, 140, 31, func(c recoveryCase, l *Layout) map[string]float64 { return lagTruthValues(c.tr, l) })
+}
+
+var _ = math.Abs
