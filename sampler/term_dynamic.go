@@ -304,7 +304,9 @@ func init() {
 		catalog.Kind{Name: "latent_autoregression", Section: catalog.Within, Tabled: true, Manuscript: "Within persons", Standardized: "std_latent_autoregression",
 			Label: func(n catalog.Names) string { return n.Outcome + ", carry-over of the latent response" + n.At() }},
 		catalog.Kind{Name: "latent_crosslag", Section: catalog.Within, Tabled: true, Manuscript: "Within persons", Standardized: "std_latent_crosslag",
-			Label: func(n catalog.Names) string { return n.From + " → " + n.Outcome + ", cross-lag of the latent response" + n.At() }},
+			Label: func(n catalog.Names) string {
+				return n.From + " → " + n.Outcome + ", cross-lag of the latent response" + n.At()
+			}},
 		catalog.Kind{Name: "std_latent_autoregression", Section: catalog.Derived, Tabled: true},
 		catalog.Kind{Name: "std_latent_crosslag", Section: catalog.Derived, Tabled: true},
 	)
