@@ -174,6 +174,9 @@ func truthFrom(sp *model.Spec, ts *model.TruthSpec, file string, T int) (sampler
 			tr.MA[j] = ts.MovingAvg[o.Name]
 		}
 	}
+	if sp.Within.LatentLag() {
+		lagTruth(&tr, sp, ts, T, idx, bad)
+	}
 	tr.A = make([]float64, J*J)
 	for _, p := range ts.Paths {
 		from, to := idx[p.From], idx[p.To]
@@ -201,6 +204,49 @@ func truthFrom(sp *model.Spec, ts *model.TruthSpec, file string, T int) (sampler
 		return tr, errors.Join(errs...)
 	}
 	return tr, nil
+}
+
+// lagTruth fills the lagged latent response's part of tr: the
+// intercepts of the dynamic equation (one value for every occasion, two
+// for the first occasion and the rest, or one per occasion; a categorical
+// outcome's first is 0) and the first occasion's loadings.
+func lagTruth(tr *sampler.Truth, sp *model.Spec, ts *model.TruthSpec, T int, idx map[string]int, bad func(string, ...any)) {
+	J := len(sp.Outcomes)
+	tr.Lag = true
+	tr.Nu = nil
+	tr.LagIntercepts = make([]float64, T*J)
+	for name, v := range ts.LagIntercepts {
+		j := idx[name]
+		for t := 0; t < T; t++ {
+			switch {
+			case len(v) == 1:
+				tr.LagIntercepts[t*J+j] = v[0]
+			case len(v) == 2:
+				tr.LagIntercepts[t*J+j] = v[min(t, 1)]
+			case len(v) == T:
+				tr.LagIntercepts[t*J+j] = v[t]
+			default:
+				bad("lag_intercepts.%s: expected one value, two (the first occasion's and the rest's) or one per occasion (%d), got %d", name, T, len(v))
+				return
+			}
+		}
+		if sp.Outcomes[j].Type.Categorical() && tr.LagIntercepts[j] != 0 {
+			bad("lag_intercepts.%s: the first occasion's intercept of a categorical outcome is 0 (its thresholds carry the location)", name)
+		}
+	}
+	if sp.Between.RandomIntercepts {
+		tr.Loadings = make([]float64, J*J)
+		for j := 0; j < J; j++ {
+			tr.Loadings[j*J+j] = 1
+		}
+		for _, p := range ts.FirstLoadings {
+			from, to := idx[p.From], idx[p.To]
+			if from != to && sp.Within.Lags != model.LagsCross {
+				bad("first_loadings: %s -> %s loads one outcome on another's random intercept, which the model file has only with dynamics.lags: cross", p.From, p.To)
+			}
+			tr.Loadings[to*J+from] = p.Value
+		}
+	}
 }
 
 // growthTruth fills the growth part of tr: the covariance of the

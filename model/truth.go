@@ -33,7 +33,15 @@ type TruthSpec struct {
 	SlopeCorr  []Pair
 	SlopeMean  map[string]float64
 	WithInterc []Pair
-	Missing    float64
+	// Lagged latent response (lag_intercepts, first_loadings; the model
+	// file needs dynamics.lag_on: latent_response): the intercepts of the
+	// dynamic equation per outcome (one value, the first occasion's and
+	// the rest's, or one per occasion) and the first occasion's loadings
+	// on the random intercepts (Path.From the intercept's outcome; absent:
+	// 1 for an outcome's own, 0 otherwise).
+	LagIntercepts map[string][]float64
+	FirstLoadings []Path
+	Missing       float64
 }
 
 // Pair is a correlation between two outcomes.
@@ -51,7 +59,7 @@ type Path struct {
 }
 
 var truthSchema = map[string][]string{
-	"":                  {"thresholds", "means", "random_intercepts", "random_slopes", "paths", "innovations", "first_occasion", "moving_averages", "missing"},
+	"":                  {"thresholds", "means", "random_intercepts", "random_slopes", "paths", "innovations", "first_occasion", "moving_averages", "lag_intercepts", "first_loadings", "missing"},
 	"random_intercepts": {"variances", "correlations"},
 	"random_slopes":     {"variances", "correlations", "means", "with_intercepts"},
 	"with_intercepts":   {"intercept", "slope", "value"},
@@ -59,6 +67,7 @@ var truthSchema = map[string][]string{
 	"first_occasion":    {"variances", "correlations"},
 	"correlations":      {"outcomes", "value"},
 	"paths":             {"from", "to", "value"},
+	"first_loadings":    {"from", "to", "value"},
 }
 
 // ReadTruth reads a truth file and checks it against the model spec sp.
@@ -81,7 +90,7 @@ func ReadTruth(path string, sp *Spec) (*TruthSpec, error) {
 	r := &truthReader{reader: reader{file: path, p: p, schema: truthSchema}, sp: sp}
 	ts := &TruthSpec{Thresholds: map[string][]float64{}, Means: map[string][]float64{}, RIVar: map[string]float64{},
 		InnovVar: map[string]float64{}, InitVar: map[string]float64{}, MovingAvg: map[string]float64{},
-		SlopeVar: map[string]float64{}, SlopeMean: map[string]float64{}}
+		SlopeVar: map[string]float64{}, SlopeMean: map[string]float64{}, LagIntercepts: map[string][]float64{}}
 	top := r.mapping(doc.Content[0], "")
 	if v, ok := top["thresholds"]; ok {
 		for name, n := range r.outcomeMap(v, "thresholds") {
@@ -148,25 +157,22 @@ func ReadTruth(path string, sp *Spec) (*TruthSpec, error) {
 	} else if sp.Between.RandomSlopes {
 		p.addf(path, 0, "random_slopes: the model file has person_differences.random_slopes: true; give the slopes' variances (random_slopes.variances) and, if not 0, their means, correlations and correlations with the intercepts")
 	}
-	if v, ok := top["paths"]; ok {
-		if v.Kind != yaml.SequenceNode {
-			p.addf(path, v.Line, "paths: expected a list of {from: a, to: b, value: x}")
-		} else {
-			for _, item := range v.Content {
-				im := r.mapping(item, "paths")
-				pa := Path{Line: item.Line}
-				if x, ok := im["from"]; ok {
-					pa.From = r.outcome(x.Value, x.Line, "paths.from")
-				}
-				if x, ok := im["to"]; ok {
-					pa.To = r.outcome(x.Value, x.Line, "paths.to")
-				}
-				if x, ok := im["value"]; ok {
-					pa.Value = r.float(x, "paths.value")
-				}
-				ts.Paths = append(ts.Paths, pa)
-			}
+	ts.Paths = r.paths(top, "paths")
+	ts.FirstLoadings = r.paths(top, "first_loadings")
+	lag := sp.Within.LatentLag()
+	if v, ok := top["lag_intercepts"]; ok {
+		if !lag {
+			p.addf(path, v.Line, "lag_intercepts: the model file has no dynamics.lag_on: latent_response (give means instead)")
 		}
+		for name, n := range r.outcomeMap(v, "lag_intercepts") {
+			ts.LagIntercepts[name] = r.floats(n, "lag_intercepts."+name)
+		}
+	}
+	if v, ok := top["first_loadings"]; ok && !(lag && sp.Between.RandomIntercepts) {
+		p.addf(path, v.Line, "first_loadings: only used with dynamics.lag_on: latent_response and random intercepts")
+	}
+	if v, ok := top["means"]; ok && lag {
+		p.addf(path, v.Line, "means: with dynamics.lag_on: latent_response give the intercepts of the lagged equation under lag_intercepts (the occasion means follow from them and the carry-over)")
 	}
 	if v, ok := top["moving_averages"]; ok {
 		if !sp.Within.MovingAverage {
@@ -215,6 +221,34 @@ func ReadTruth(path string, sp *Spec) (*TruthSpec, error) {
 		return nil, err
 	}
 	return ts, nil
+}
+
+// paths reads a list of {from, to, value} under key (nil when absent).
+func (r *truthReader) paths(top map[string]*yaml.Node, key string) []Path {
+	v, ok := top[key]
+	if !ok {
+		return nil
+	}
+	if v.Kind != yaml.SequenceNode {
+		r.p.addf(r.file, v.Line, "%s: expected a list of {from: a, to: b, value: x}", key)
+		return nil
+	}
+	var out []Path
+	for _, item := range v.Content {
+		im := r.mapping(item, key)
+		pa := Path{Line: item.Line}
+		if x, ok := im["from"]; ok {
+			pa.From = r.outcome(x.Value, x.Line, key+".from")
+		}
+		if x, ok := im["to"]; ok {
+			pa.To = r.outcome(x.Value, x.Line, key+".to")
+		}
+		if x, ok := im["value"]; ok {
+			pa.Value = r.float(x, key+".value")
+		}
+		out = append(out, pa)
+	}
+	return out
 }
 
 // slopeExtras reads random_slopes.means and random_slopes.with_intercepts

@@ -286,3 +286,48 @@ func EnvelopeSolveUpperT(l []float64, p int, first []int, b []float64) {
 		}
 	}
 }
+
+// SolveGeneral solves a x = b for a general (not necessarily symmetric)
+// n x n matrix a by Gaussian elimination with partial pivoting, writing x
+// over b; work holds n*n values (a is left unchanged). It returns false
+// when a is singular to working precision.
+func SolveGeneral(a []float64, n int, b, work []float64) bool {
+	m := work[:n*n]
+	copy(m, a[:n*n])
+	scale := 0.0
+	for _, v := range m {
+		scale = max(scale, math.Abs(v))
+	}
+	for c := 0; c < n; c++ {
+		p := c
+		for r := c + 1; r < n; r++ {
+			if math.Abs(m[r*n+c]) > math.Abs(m[p*n+c]) {
+				p = r
+			}
+		}
+		if !(math.Abs(m[p*n+c]) > 1e-13*scale) {
+			return false
+		}
+		if p != c {
+			for k := 0; k < n; k++ {
+				m[c*n+k], m[p*n+k] = m[p*n+k], m[c*n+k]
+			}
+			b[c], b[p] = b[p], b[c]
+		}
+		for r := c + 1; r < n; r++ {
+			f := m[r*n+c] / m[c*n+c]
+			for k := c; k < n; k++ {
+				m[r*n+k] -= f * m[c*n+k]
+			}
+			b[r] -= f * b[c]
+		}
+	}
+	for r := n - 1; r >= 0; r-- {
+		v := b[r]
+		for k := r + 1; k < n; k++ {
+			v -= m[r*n+k] * b[k]
+		}
+		b[r] = v / m[r*n+r]
+	}
+	return true
+}

@@ -128,3 +128,25 @@ func TestEnvelopeCholesky(t *testing.T) {
 		}
 	}
 }
+
+// TestSolveGeneral solves a non-symmetric system that needs pivoting (a
+// zero in the first pivot) and checks a x = b; a singular matrix is
+// refused.
+func TestSolveGeneral(t *testing.T) {
+	a := []float64{0, 2, 1, 1, -1, 3, 4, 0.5, -2}
+	want := []float64{1.5, -2, 0.25}
+	b := make([]float64, 3)
+	MulVec(b, a, want, 3, 3)
+	work := make([]float64, 9)
+	if !SolveGeneral(a, 3, b, work) {
+		t.Fatal("refused a regular matrix")
+	}
+	for k := range want {
+		if math.Abs(b[k]-want[k]) > 1e-12 {
+			t.Errorf("x[%d] = %g, want %g", k, b[k], want[k])
+		}
+	}
+	if SolveGeneral([]float64{1, 2, 2, 4}, 2, []float64{1, 1}, work) {
+		t.Error("accepted a singular matrix")
+	}
+}
