@@ -311,31 +311,36 @@ func (pb *LagPathBlock) Update(st *State, rng *rand.Rand) error {
 	return st.Refresh()
 }
 
-// LagLocationBlock is the location move of a categorical outcome j under a
-// lagged latent response (the analogue of LocationBlock, which assumes the
-// residual form). It translates, by delta, outcome j's thresholds and
-// latent responses at every occasion, the random intercepts by u delta
-// with u = Lambda^{-1} e_j, and the intercepts of the later occasions by
-// v_t delta with v_t = (I - A_t) e_j - u. Substituting shows every
-// innovation zeta_it unchanged (c_1 stays 0), and the categories keep
-// their intervals, so along this line the posterior is the product of the
-// thresholds', intercepts' and random intercepts' normal priors: Gaussian
-// in delta, drawn exactly (Liu & Sabatti 2000, JASA 95:509; translations
-// have Jacobian 1). The move is made only when every intercept it shifts
-// is free, and with intercepts equal over time only when the paths are
-// equal too (else v_t would differ between occasions sharing one value).
-// Reads and writes Tau, Ystar, B and the intercepts.
+// LagLocationBlock makes the location moves of a categorical outcome j
+// under a lagged latent response (the analogue of LocationBlock, which
+// assumes the residual form). A move translates, by delta, outcome j's
+// thresholds and latent responses at every occasion, the random
+// intercepts by u delta and the intercepts of the later occasions by v_t
+// delta with v_t = (I - A_t) e_j - u; the categories keep their
+// intervals, every later innovation zeta_it is unchanged, and the first
+// occasion's changes by g delta, g = e_j - Lambda u (c_1 stays 0). Along
+// the line the posterior is then Gaussian in delta (the first occasion's
+// innovations and the normal priors of thresholds, intercepts and random
+// intercepts), drawn exactly (Liu & Sabatti 2000, JASA 95:509;
+// translations have Jacobian 1). Two directions per outcome: u =
+// Lambda^{-1} e_j (the first occasion unchanged; the level against the
+// random intercepts' mean) and u = 0 (the level against the first
+// occasion's innovations). A move is made only when every intercept it
+// shifts is free, and with intercepts equal over time only when the paths
+// are equal too (else v_t would differ between occasions sharing one
+// value). Reads and writes Tau, Ystar, B and the intercepts.
 type LagLocationBlock struct {
-	psiIn, tmp        []float64
-	u, v, sumB, shift []float64
-	seen              []bool
+	psiIn, tmp            []float64
+	u, g, sg, sumB, sumZ1 []float64
+	shift                 []float64
+	seen                  []bool
 }
 
 // NewLagLocationBlock allocates the block's workspace.
 func NewLagLocationBlock(l *Layout) *LagLocationBlock {
 	J := l.J
-	return &LagLocationBlock{psiIn: make([]float64, J*J), tmp: make([]float64, J*J+J),
-		u: make([]float64, J), v: make([]float64, l.T*J), sumB: make([]float64, J), shift: make([]float64, l.NDyn), seen: make([]bool, l.NDyn)}
+	return &LagLocationBlock{psiIn: make([]float64, J*J), tmp: make([]float64, J*J+J), u: make([]float64, J), g: make([]float64, J),
+		sg: make([]float64, J), sumB: make([]float64, J), sumZ1: make([]float64, J), shift: make([]float64, l.NDyn), seen: make([]bool, l.NDyn)}
 }
 
 // Name implements Block.
@@ -349,94 +354,263 @@ func (*LagLocationBlock) Writes() Part {
 // Update implements Block.
 func (lb *LagLocationBlock) Update(st *State, rng *rand.Rand) error {
 	l := st.L
-	J, T := l.J, l.T
+	J := l.J
 	JJ := J * J
 	if !l.MeansFree && l.PathsFree {
 		return nil
 	}
-	c, lam, _ := st.dynParts()
+	_, lam, _ := st.dynParts()
 	if !dense.Inverse(lb.psiIn, st.Psi, J, lb.tmp[:JJ], lb.tmp[JJ:]) {
 		return errBlock("location moves of the lagged equation", "random-intercept covariance is not positive definite")
 	}
-	ivT := 1 / (l.Priors.ThresholdSD * l.Priors.ThresholdSD)
-	ivC := 1 / (l.Priors.MeanSD * l.Priors.MeanSD)
 	for j := 0; j < J; j++ {
 		if !l.Cat[j] {
 			continue
 		}
-		for k := range lb.u {
-			lb.u[k] = 0
-		}
-		lb.u[j] = 1
-		if !dense.SolveGeneral(lam, J, lb.u, lb.tmp[:JJ]) {
-			continue // a singular Lambda: no move this sweep
-		}
-		ok := true
-		for k := range lb.shift {
-			lb.shift[k], lb.seen[k] = 0, false
-		}
-		for t := 1; t < T && ok; t++ {
-			for k := 0; k < J; k++ {
-				v := -st.A[t*JJ+k*J+j] - lb.u[k]
-				if k == j {
-					v++
-				}
-				idx := l.DynIdx[t*J+k]
-				switch {
-				case idx < 0 && v != 0:
-					ok = false
-				case idx >= 0 && !lb.seen[idx]:
-					lb.seen[idx], lb.shift[idx] = true, v
+		for dir := 0; dir < 2; dir++ {
+			for k := range lb.u {
+				lb.u[k] = 0
+			}
+			if dir == 0 {
+				lb.u[j] = 1
+				if !dense.SolveGeneral(lam, J, lb.u, lb.tmp[:JJ]) {
+					continue // a singular Lambda: no move this sweep
 				}
 			}
+			lb.move(st, rng, j, lam)
 		}
-		if !ok {
-			continue
-		}
-		// log density along the line: -(a delta^2 + 2 bq delta)/2.
-		for k := range lb.sumB {
-			lb.sumB[k] = 0
-		}
-		for i := 0; i < l.N; i++ {
-			for k := 0; k < J; k++ {
-				lb.sumB[k] += st.B[i*J+k]
-			}
-		}
-		a, bq := 0.0, 0.0
-		for p := 0; p < J; p++ {
-			for q := 0; q < J; q++ {
-				a += float64(l.N) * lb.u[p] * lb.psiIn[p*J+q] * lb.u[q]
-				bq += lb.u[p] * lb.psiIn[p*J+q] * lb.sumB[q]
-			}
-		}
-		for _, x := range st.Tau[j] {
-			a += ivT
-			bq += ivT * x
-		}
-		for k, s := range lb.shift {
-			a += ivC * s * s
-			bq += ivC * c[k] * s
-		}
-		if !(a > 0) {
-			continue
-		}
-		delta := -bq/a + rng.NormFloat64()/math.Sqrt(a)
-		for k := range st.Tau[j] {
-			st.Tau[j][k] += delta
-		}
-		for i := 0; i < l.N; i++ {
-			off := l.Panel.Offset[i]
-			for t := 0; t < l.Panel.Len[i]; t++ {
-				st.Ystar[off+t*J+j] += delta
-			}
-			for k := 0; k < J; k++ {
-				st.B[i*J+k] += lb.u[k] * delta
-			}
-		}
-		for k, s := range lb.shift {
-			c[k] += s * delta
-		}
-		st.SyncNu()
 	}
 	return nil
+}
+
+// move makes one location move of outcome j along the current u.
+func (lb *LagLocationBlock) move(st *State, rng *rand.Rand, j int, lam []float64) {
+	l := st.L
+	J, T := l.J, l.T
+	JJ := J * J
+	c, _, _ := st.dynParts()
+	for k := range lb.shift {
+		lb.shift[k], lb.seen[k] = 0, false
+	}
+	for t := 1; t < T; t++ {
+		for k := 0; k < J; k++ {
+			v := -st.A[t*JJ+k*J+j] - lb.u[k]
+			if k == j {
+				v++
+			}
+			idx := l.DynIdx[t*J+k]
+			switch {
+			case idx < 0 && v != 0:
+				return
+			case idx >= 0 && !lb.seen[idx]:
+				lb.seen[idx], lb.shift[idx] = true, v
+			}
+		}
+	}
+	for k := 0; k < J; k++ {
+		v := 0.0
+		for p := 0; p < J; p++ {
+			v -= lam[k*J+p] * lb.u[p]
+		}
+		if k == j {
+			v++
+		}
+		lb.g[k] = v
+		lb.sumB[k], lb.sumZ1[k] = 0, 0
+	}
+	for i := 0; i < l.N; i++ {
+		off := l.Panel.Offset[i]
+		b := st.B[i*J : i*J+J]
+		for k := 0; k < J; k++ {
+			lb.sumB[k] += b[k]
+			z := st.Ystar[off+k] - st.dynIntercept(c, 0, k)
+			for p, bp := range b {
+				z -= lam[k*J+p] * bp
+			}
+			lb.sumZ1[k] += z
+		}
+	}
+	// log density along the line: -(a delta^2 + 2 bq delta)/2.
+	n := float64(l.N)
+	dense.MulVec(lb.sg, st.SigInv[:JJ], lb.g, J, J)
+	a, bq := 0.0, 0.0
+	for p := 0; p < J; p++ {
+		a += n * lb.sg[p] * lb.g[p]
+		bq += lb.sg[p] * lb.sumZ1[p]
+		for q := 0; q < J; q++ {
+			a += n * lb.u[p] * lb.psiIn[p*J+q] * lb.u[q]
+			bq += lb.u[p] * lb.psiIn[p*J+q] * lb.sumB[q]
+		}
+	}
+	ivT := 1 / (l.Priors.ThresholdSD * l.Priors.ThresholdSD)
+	for _, x := range st.Tau[j] {
+		a += ivT
+		bq += ivT * x
+	}
+	ivC := 1 / (l.Priors.MeanSD * l.Priors.MeanSD)
+	for k, s := range lb.shift {
+		a += ivC * s * s
+		bq += ivC * c[k] * s
+	}
+	if !(a > 0) {
+		return
+	}
+	delta := -bq/a + rng.NormFloat64()/math.Sqrt(a)
+	for k := range st.Tau[j] {
+		st.Tau[j][k] += delta
+	}
+	for i := 0; i < l.N; i++ {
+		off := l.Panel.Offset[i]
+		for t := 0; t < l.Panel.Len[i]; t++ {
+			st.Ystar[off+t*J+j] += delta
+		}
+		for k := 0; k < J; k++ {
+			st.B[i*J+k] += lb.u[k] * delta
+		}
+	}
+	for k, s := range lb.shift {
+		c[k] += s * delta
+	}
+	st.SyncNu()
+}
+
+// LagShearBlock moves each free carry-over entry A[r,k] together with the
+// random intercepts of outcome r. In the dynamic form a person's level
+// is about b_i / (1 - A), so A and the b_i are strongly dependent and the
+// Gibbs blocks, drawing one given the other, move slowly along their ridge.
+// The move shifts A[r,k] (at the path occasion s, or every occasion when
+// paths are equal) by eps and every b_ir by -eps mu_ik, mu_ik the mean of
+// y*_i,k,t-1 over person i's occasions t that use A_s: a translation of
+// the (A, b) coordinates with the latent responses fixed (Jacobian 1).
+// Every innovation is linear in eps, so along this line the posterior is
+// Gaussian and eps is drawn exactly (a generalized Gibbs step, Liu &
+// Sabatti 2000, JASA 95:509). Reads Ystar, B, A, the intercepts, the
+// loadings, Sigma and Psi; writes A and B, hence Nu and the between parts.
+type LagShearBlock struct {
+	free                    []int
+	psiIn, tmp, zeta, d, sd []float64
+	mu                      []float64 // N: mu_ik for the current entry
+	cur                     []float64
+}
+
+// NewLagShearBlock allocates the block's workspace.
+func NewLagShearBlock(l *Layout) *LagShearBlock {
+	J := l.J
+	sb := &LagShearBlock{psiIn: make([]float64, J*J), tmp: make([]float64, J*J+J), zeta: make([]float64, J), d: make([]float64, J),
+		sd: make([]float64, J), mu: make([]float64, l.N), cur: make([]float64, J*J)}
+	for k, f := range l.PathFree {
+		if f {
+			sb.free = append(sb.free, k)
+		}
+	}
+	return sb
+}
+
+// Name implements Block.
+func (*LagShearBlock) Name() string { return "carry-over and random-intercept shears" }
+
+// Writes implements Block.
+func (*LagShearBlock) Writes() Part { return PartPaths | PartIntercepts | PartMeans | PartOwn }
+
+// Update implements Block.
+func (sb *LagShearBlock) Update(st *State, rng *rand.Rand) error {
+	l := st.L
+	J := l.J
+	if !dense.Inverse(sb.psiIn, st.Psi, J, sb.tmp[:J*J], sb.tmp[J*J:]) {
+		return errBlock("carry-over and random-intercept shears", "random-intercept covariance is not positive definite")
+	}
+	for _, s := range l.pathOccasions() {
+		for _, f := range sb.free {
+			if err := sb.move(st, rng, s, f/J, f%J); err != nil {
+				return err
+			}
+		}
+	}
+	return nil
+}
+
+// uses reports whether occasion t's innovation uses the paths of path
+// occasion s.
+func (sb *LagShearBlock) uses(l *Layout, s, t int) bool {
+	return t >= 1 && (!l.PathsFree || t == s)
+}
+
+// move makes the shear of entry (r, k) of the paths of path occasion s.
+func (sb *LagShearBlock) move(st *State, rng *rand.Rand, s, r, k int) error {
+	l := st.L
+	J := l.J
+	JJ := J * J
+	c, lam, _ := st.dynParts()
+	aq, bq := 0.0, 0.0
+	for i := 0; i < l.N; i++ {
+		off := l.Panel.Offset[i]
+		Ti := l.Panel.Len[i]
+		n, sum := 0, 0.0
+		for t := 1; t < Ti; t++ {
+			if sb.uses(l, s, t) {
+				n++
+				sum += st.Ystar[off+(t-1)*J+k]
+			}
+		}
+		sb.mu[i] = 0
+		if n == 0 {
+			continue
+		}
+		mu := sum / float64(n)
+		sb.mu[i] = mu
+		b := st.B[i*J : i*J+J]
+		for t := 0; t < Ti; t++ {
+			y := st.Ystar[off+t*J : off+(t+1)*J]
+			for q := 0; q < J; q++ {
+				v := y[q] - st.dynIntercept(c, t, q)
+				if t == 0 {
+					for p, bp := range b {
+						v -= lam[q*J+p] * bp
+					}
+					sb.d[q] = lam[q*J+r] * mu
+				} else {
+					v -= b[q]
+					for p := 0; p < J; p++ {
+						v -= st.A[t*JJ+q*J+p] * st.Ystar[off+(t-1)*J+p]
+					}
+					sb.d[q] = 0
+				}
+				sb.zeta[q] = v
+			}
+			if t > 0 {
+				sb.d[r] = mu
+				if sb.uses(l, s, t) {
+					sb.d[r] -= st.Ystar[off+(t-1)*J+k]
+				}
+			}
+			si := st.SigInv[t*JJ : (t+1)*JJ]
+			dense.MulVec(sb.sd, si, sb.d, J, J)
+			for q := 0; q < J; q++ {
+				aq += sb.sd[q] * sb.d[q]
+				bq += sb.sd[q] * sb.zeta[q]
+			}
+		}
+		// The random intercepts' prior: b_i - eps mu e_r.
+		pb := 0.0
+		for p, bp := range b {
+			pb += sb.psiIn[r*J+p] * bp
+		}
+		aq += mu * mu * sb.psiIn[r*J+r]
+		bq -= mu * pb
+	}
+	iv := 1 / (l.Priors.PathSD * l.Priors.PathSD)
+	a0 := st.A[s*JJ+r*J+k]
+	aq += iv
+	bq += iv * a0
+	if !(aq > 0) {
+		return nil
+	}
+	eps := -bq/aq + rng.NormFloat64()/math.Sqrt(aq)
+	copy(sb.cur, st.A[s*JJ:(s+1)*JJ])
+	sb.cur[r*J+k] = a0 + eps
+	st.setPaths(s, sb.cur)
+	for i := 0; i < l.N; i++ {
+		st.B[i*J+r] -= eps * sb.mu[i]
+	}
+	return st.Refresh()
 }

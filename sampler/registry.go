@@ -51,6 +51,7 @@ const (
 	slotLocation    = 80 // LocationBlock
 	slotMeans       = 90 // MeanBlock
 	slotPaths       = 100
+	slotShear       = 105 // LagShearBlock (lagged latent response)
 	slotCov         = 110
 	slotPsi         = 120
 	slotInterweave  = 125 // InterweaveBlock

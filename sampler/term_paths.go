@@ -141,7 +141,11 @@ func (pathTerm) Blocks(l *Layout, _ Options) []Placed {
 		return nil // the moving-average term's block draws the paths too
 	}
 	if l.Dyn {
-		return []Placed{{slotPaths, NewLagPathBlock(l)}} // dynamic.go
+		ps := []Placed{{slotPaths, NewLagPathBlock(l)}} // dynamic.go
+		if l.RI {
+			ps = append(ps, Placed{slotShear, NewLagShearBlock(l)})
+		}
+		return ps
 	}
 	return []Placed{{slotPaths, NewPathBlock(l)}}
 }
