@@ -91,12 +91,12 @@ func priorInterval(l *sampler.Layout, e Entry, level float64) (lo, hi float64, l
 	}
 	a := (1 - level) / 2
 	switch e.Kind {
-	case "autoregression", "crosslag":
+	case "autoregression", "crosslag", "latent_autoregression", "latent_crosslag":
 		// N(0, PathSD^2) on the standardized scale (the stationary start's
 		// truncation to the stable region is ignored: a wider interval).
 		z := distuv.UnitNormal.Quantile(1 - a)
 		f := 1.0
-		if e.Kind == "crosslag" {
+		if isCrossLag(e.Kind) {
 			f = scale(e.Outcome) / scale(e.From)
 		}
 		return -z * pr.PathSD * f, z * pr.PathSD * f, false, true
@@ -154,7 +154,7 @@ func explosive(l *sampler.Layout, es []Entry) []string {
 	J := l.J
 	mats := map[int][]float64{} // occasion (or -1) -> A
 	for _, e := range es {
-		if e.Kind != "autoregression" && e.Kind != "crosslag" {
+		if !isPath(e.Kind) {
 			continue
 		}
 		occ := -1
@@ -165,7 +165,7 @@ func explosive(l *sampler.Layout, es []Entry) []string {
 			mats[occ] = make([]float64, J*J)
 		}
 		from := e.Outcome
-		if e.Kind == "crosslag" {
+		if isCrossLag(e.Kind) {
 			from = e.From
 		}
 		mats[occ][idx[e.Outcome]*J+idx[from]] = float64(e.Mean)
@@ -185,11 +185,28 @@ func explosive(l *sampler.Layout, es []Entry) []string {
 			if o >= 0 {
 				at = fmt.Sprintf(" into occasion %d", o)
 			}
-			out = append(out, fmt.Sprintf("explosive carry-over%s: the posterior mean carry-over matrix has an eigenvalue of modulus %.3f (1 or more), a process that grows without bound; check the data's coding and spacing, or use dynamics.first_occasion: stationary, which keeps the process stable", at, m))
+			fix := "or use dynamics.first_occasion: stationary, which keeps the process stable"
+			if l.Dyn {
+				fix = "or compare with dynamics.lag_on: residuals, whose random intercepts carry the stable person differences the lagged response otherwise accumulates"
+			}
+			out = append(out, fmt.Sprintf("explosive carry-over%s: the posterior mean carry-over matrix has an eigenvalue of modulus %.3f (1 or more), a process that grows without bound; check the data's coding and spacing, %s", at, m, fix))
 		}
 	}
 	return out
 }
+
+// isPath reports whether kind is a carry-over or cross-lag path (of the
+// residuals or of a lagged latent response).
+func isPath(kind string) bool {
+	switch kind {
+	case "autoregression", "crosslag", "latent_autoregression", "latent_crosslag":
+		return true
+	}
+	return false
+}
+
+// isCrossLag reports whether kind is a cross-lag path.
+func isCrossLag(kind string) bool { return kind == "crosslag" || kind == "latent_crosslag" }
 
 // CommonFactorGap is how close (in posterior means) an autoregression and
 // minus its moving average must be for the common-factor warning.

@@ -90,6 +90,9 @@ type ModelInfo struct {
 	MeansOverTime       string        `json:"means_over_time"`
 	// MovingAverage: ARMA(1,1) within parts (dynamics.moving_average).
 	MovingAverage bool `json:"moving_average,omitempty"`
+	// LagOn is "latent_response" when the latent response is regressed on
+	// its previous value (dynamics.lag_on), else omitted.
+	LagOn string `json:"lag_on,omitempty"`
 	// RandomSlopes: growth (person_differences.random_slopes) over
 	// TimeScores, one per occasion; MeansOverTime is then "growth line".
 	RandomSlopes bool      `json:"random_slopes,omitempty"`
@@ -260,6 +263,14 @@ func Build(res *sampler.Result, level float64, version string) *Summary {
 			return strings.HasPrefix(p, "occasion means:") || strings.HasPrefix(p, "random-intercept covariance:")
 		})
 		mi.Priors = append(mi.Priors, sampler.GrowthPriors(l)...)
+	}
+	if l.Dyn {
+		mi.LagOn = "latent_response"
+		mi.Priors = slices.DeleteFunc(slices.Clone(mi.Priors), func(p string) bool { return strings.HasPrefix(p, "occasion means:") })
+		mi.Priors = append(mi.Priors, fmt.Sprintf("intercepts of the lagged equation: normal(0, %g^2)", l.Priors.MeanSD))
+		if l.RI {
+			mi.Priors = append(mi.Priors, fmt.Sprintf("first-occasion loadings on the random intercepts: normal(1, %g^2) for an outcome's own, normal(0, %g^2) for another's", l.Priors.PathSD, l.Priors.PathSD))
+		}
 	}
 	for j, o := range l.Panel.Outcomes {
 		mi.Outcomes = append(mi.Outcomes, outcomeInfo(l, j))

@@ -328,7 +328,8 @@ func (pb *LagPathBlock) Update(st *State, rng *rand.Rand) error {
 // occasion's innovations). A move is made only when every intercept it
 // shifts is free, and with intercepts equal over time only when the paths
 // are equal too (else v_t would differ between occasions sharing one
-// value). Reads and writes Tau, Ystar, B and the intercepts.
+// value). Without random intercepts only u = 0 applies. Reads and writes
+// Tau, Ystar, B and the intercepts.
 type LagLocationBlock struct {
 	psiIn, tmp            []float64
 	u, g, sg, sumB, sumZ1 []float64
@@ -360,14 +361,18 @@ func (lb *LagLocationBlock) Update(st *State, rng *rand.Rand) error {
 		return nil
 	}
 	_, lam, _ := st.dynParts()
-	if !dense.Inverse(lb.psiIn, st.Psi, J, lb.tmp[:JJ], lb.tmp[JJ:]) {
+	if l.RI && !dense.Inverse(lb.psiIn, st.Psi, J, lb.tmp[:JJ], lb.tmp[JJ:]) {
 		return errBlock("location moves of the lagged equation", "random-intercept covariance is not positive definite")
+	}
+	first := 0
+	if !l.RI {
+		first = 1 // no random intercepts to move: u = 0 only
 	}
 	for j := 0; j < J; j++ {
 		if !l.Cat[j] {
 			continue
 		}
-		for dir := 0; dir < 2; dir++ {
+		for dir := first; dir < 2; dir++ {
 			for k := range lb.u {
 				lb.u[k] = 0
 			}
@@ -437,7 +442,7 @@ func (lb *LagLocationBlock) move(st *State, rng *rand.Rand, j int, lam []float64
 	for p := 0; p < J; p++ {
 		a += n * lb.sg[p] * lb.g[p]
 		bq += lb.sg[p] * lb.sumZ1[p]
-		for q := 0; q < J; q++ {
+		for q := 0; q < J && l.RI; q++ {
 			a += n * lb.u[p] * lb.psiIn[p*J+q] * lb.u[q]
 			bq += lb.u[p] * lb.psiIn[p*J+q] * lb.sumB[q]
 		}

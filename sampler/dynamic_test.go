@@ -83,4 +83,41 @@ dynamics: {lags: cross, lag_on: latent_response}
 	runRecovery(t, cases, 140, 31, func(c recoveryCase, l *Layout) map[string]float64 { return lagTruthValues(c.tr, l) })
 }
 
-var _ = math.Abs
+// TestLatentLagWithoutInterceptsEqualsResidualAR: without random
+// intercepts the lagged latent response is the residual carry-over model
+// with its means written as m_t = c_t + A m_t-1 (term_dynamic.go), so on
+// the same data the two fits must give the same posterior of the shared
+// parameters (carry-over, thresholds, innovation and first-occasion
+// variances), up to Monte Carlo error and the small difference between
+// normal(0, 5^2) priors on c_t and on m_t. Checked: posterior means
+// within 0.2 posterior sd (about 4 Monte Carlo standard errors of the
+// difference at these run lengths).
+func TestLatentLagWithoutInterceptsEqualsResidualAR(t *testing.T) {
+	if testing.Short() {
+		t.Skip("fits skipped in -short mode")
+	}
+	tr := Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Ordinal, model.Continuous}, Tau: [][]float64{{-0.6, 0.2, 1}, nil},
+		Nu: repeatPair(0, 1, 6), A: []float64{0.5, 0.1, 0.2, 0.4}, Sigma: []float64{1, 0.3, 0.3, 0.7}, Sigma1: []float64{1, 0.2, 0.2, 1.1}, Missing: 0.05}
+	csv, err := Simulate(tr, 300, 6, newRand(77))
+	if err != nil {
+		t.Fatal(err)
+	}
+	const head = "data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: [{name: a, type: ordinal, categories: 4, lowest: 0}, {name: b, type: continuous}]\nperson_differences: {random_intercepts: false}\nmeans: {over_time: free}\n"
+	lag := summarize(runFit(t, layoutFrom(t, head+"dynamics: {lags: cross, lag_on: latent_response}\n", csv), 2, 1000, 3000, 15))
+	res := summarize(runFit(t, layoutFrom(t, head+"dynamics: {lags: cross}\n", csv), 2, 1000, 3000, 16))
+	pairs := map[string]string{
+		"latent_autoregression[a]": "autoregression[a]", "latent_autoregression[b]": "autoregression[b]",
+		"latent_crosslag[a->b]": "crosslag[a->b]", "latent_crosslag[b->a]": "crosslag[b->a]",
+		"threshold[a,1]": "threshold[a,1]", "threshold[a,3]": "threshold[a,3]",
+		"innovation_variance[b]": "innovation_variance[b]", "innovation_correlation[a,b]": "innovation_correlation[a,b]",
+		"initial_variance[b]": "initial_variance[b]",
+	}
+	for a, b := range pairs {
+		x, y := lag[a], res[b]
+		sd := (x.hi - x.lo) / (2 * 1.96)
+		t.Logf("%-28s lagged %.4f  residual %.4f  (sd %.4f)", a, x.mean, y.mean, sd)
+		if !(sd > 0) || math.Abs(x.mean-y.mean) > 0.2*sd {
+			t.Errorf("%s: lagged-response mean %.4f, residual-model mean %.4f differ by more than 0.2 sd (%.4f)", a, x.mean, y.mean, sd)
+		}
+	}
+}

@@ -132,6 +132,17 @@ func NewLayout(sp *model.Spec, pan *model.Panel, pr priors.Set) *Layout {
 	// Means: categorical outcomes have nu_j = 0 at their anchor occasion
 	// (location from thresholds); continuous outcomes have a free first mean.
 	l.Anchor, l.Notes = model.MeanAnchors(sp, pan)
+	if l.Dyn {
+		// The first occasion is given: a categorical outcome's intercept
+		// is 0 there (term_dynamic.go), whatever the means section says.
+		l.Notes = nil
+		for j := range l.Anchor {
+			l.Anchor[j] = -1
+			if l.Cat[j] {
+				l.Anchor[j] = 0
+			}
+		}
+	}
 	observed := make([][]int, J)
 	for j := range observed {
 		observed[j] = pan.ObservedAt(j)

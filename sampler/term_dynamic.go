@@ -286,16 +286,16 @@ func (dynamicTerm) Prior(s *State, pr priors.Set, rng *rand.Rand) {
 	s.SyncNu()
 }
 
-// Blocks: the intercepts; with random intercepts the loadings and (not
-// with plain data augmentation) the location move of each categorical
-// outcome (dynamic.go).
+// Blocks: the intercepts; with random intercepts the loadings; not with
+// plain data augmentation, the location moves of each categorical outcome
+// (dynamic.go).
 func (dynamicTerm) Blocks(l *Layout, opt Options) []Placed {
 	ps := []Placed{{slotMeans, NewLagInterceptBlock(l)}}
 	if l.RI {
 		ps = append(ps, Placed{slotLoadings, NewLoadingBlock(l)})
-		if opt.ThresholdUpdate != model.ThresholdAlbertChib && slices.Contains(l.Cat, true) {
-			ps = append(ps, Placed{slotLocation, NewLagLocationBlock(l)})
-		}
+	}
+	if opt.ThresholdUpdate != model.ThresholdAlbertChib && slices.Contains(l.Cat, true) {
+		ps = append(ps, Placed{slotLocation, NewLagLocationBlock(l)})
 	}
 	return ps
 }

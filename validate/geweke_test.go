@@ -2,6 +2,7 @@ package validate
 
 import (
 	"math"
+	"strings"
 	"math/rand/v2"
 	"testing"
 
@@ -52,12 +53,16 @@ func TestGewekeJointDistribution(t *testing.T) {
 		// the random intercepts with its design.
 		{"latent lag", cross + ", lag_on: latent_response", "over_time: free", sampler.Options{ThresholdUpdate: model.ThresholdJoint}},
 		{"latent lag, own", "lags: own, lag_on: latent_response", eqM, sampler.Options{ThresholdUpdate: model.ThresholdJoint}},
+		{"latent lag, no random intercepts", cross + ", lag_on: latent_response", "over_time: free", sampler.Options{ThresholdUpdate: model.ThresholdJoint}},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			t.Parallel()
 			between := ri
 			if c.name == "growth" {
 				between += ", random_slopes: true"
+			}
+			if strings.Contains(c.name, "no random intercepts") {
+				between = noRI
 			}
 			geweke(t, Scenario{Name: "geweke", Model: base(pair, between, c.within, c.means), Persons: 8, Times: 4}, c.opt)
 		})

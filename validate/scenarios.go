@@ -58,5 +58,10 @@ func Scenarios() []Scenario {
 		two("growth without carry-over, uneven time scores", growth+", time_scores: [0, 1, 2, 4, 6, 9]", "lags: none, residual_correlation: true", "", 0.05),
 		{Name: "growth, binary, AR(1) residuals", Model: base("[{name: y, type: binary}]", growth, "lags: own", ""), Persons: 60, Times: 6, Missing: 0.05},
 		{Name: "growth, continuous, AR(1) residuals", Model: base("[{name: y, type: continuous}]", growth, "lags: own", ""), Persons: 40, Times: 6, Missing: 0.05},
+		two("lagged latent response, cross-lagged", ri, cross+", lag_on: latent_response", eqM, 0.05),
+		two("lagged latent response, paths and intercepts free over time", ri, "lags: cross, residual_correlation: true, over_time: free, lag_on: latent_response", "over_time: free", 0.05),
+		two("lagged latent response without random intercepts", noRI, cross+", lag_on: latent_response", eqM, 0.05),
+		{Name: "lagged latent response, binary", Model: base("[{name: y, type: binary}]", ri, "lags: own, lag_on: latent_response", eqM), Persons: 60, Times: 6, Missing: 0.05},
+		{Name: "lagged latent response, continuous", Model: base("[{name: y, type: continuous}]", ri, "lags: own, lag_on: latent_response", "over_time: free"), Persons: 40, Times: 6, Missing: 0.05},
 	}
 }
