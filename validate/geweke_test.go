@@ -2,8 +2,8 @@ package validate
 
 import (
 	"math"
-	"strings"
 	"math/rand/v2"
+	"strings"
 	"testing"
 
 	"github.com/lagstar/lagstar/model"
