@@ -199,3 +199,61 @@ func writeFile(t *testing.T, dir, name, text string) string {
 	}
 	return p
 }
+
+// TestREADMELatentLagExample runs the README's invented voice-strain
+// panel: it simulates the panel from the README's truth file, fits the
+// README's lagged-latent-response model and the same model with
+// residual carry-over, and requires the lagged fit's intervals to cover
+// the true carry-over and first-occasion loading and compare to prefer
+// the lagged model by more than two standard errors of the elpd
+// difference.
+func TestREADMELatentLagExample(t *testing.T) {
+	if testing.Short() {
+		t.Skip("fits skipped in -short mode")
+	}
+	modelText, truthText := readmeExample(t, "lag_on: latent_response", "# truth for the invented call-centre")
+	dir := t.TempDir()
+	write := func(name, text string) string { return writeFile(t, dir, name, text) }
+	lagged := write("voice.yaml", modelText)
+	residual := write("voice-residual.yaml", strings.Replace(modelText, "  lag_on: latent_response\n", "", 1))
+	truth := write("voice-truth.yaml", truthText)
+	if _, err := fit.Simulate(fit.SimulateOptions{ModelPath: lagged, TruthPath: truth, Persons: 500, Occasions: 8, Seed: 4,
+		Out: filepath.Join(dir, "voice.csv")}); err != nil {
+		t.Fatal(err)
+	}
+	runs := []string{filepath.Join(dir, "lagged"), filepath.Join(dir, "residual")}
+	for k, m := range []string{lagged, residual} {
+		out, err := fit.Fit(context.Background(), fit.Options{ModelPath: m, OutDir: runs[k], Chains: 2, Warmup: 1000, Draws: 2000,
+			FixedLength: true, Seed: 4, SeedSet: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if k > 0 {
+			continue
+		}
+		want := map[string]float64{"latent_autoregression[voice_strain]": 0.6, "first_loading[voice_strain<-ri:voice_strain]": 0.4}
+		for _, p := range out.Summary.Parameters {
+			if v, ok := want[p.Name]; ok {
+				lo, hi := float64(p.Lower), float64(p.Upper)
+				t.Logf("%s: mean %.3f, interval [%.3f, %.3f] (truth %g)", p.Name, float64(p.Mean), lo, hi, v)
+				if !(lo <= v && v <= hi) {
+					t.Errorf("%s: interval [%.3f, %.3f] misses the truth %g", p.Name, lo, hi, v)
+				}
+				delete(want, p.Name)
+			}
+		}
+		if len(want) > 0 {
+			t.Errorf("lagged fit reports no %v", want)
+		}
+	}
+	res, err := fit.Compare(fit.CompareOptions{RunDirs: runs, Draws: 100, GHKPoints: 200})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, r := range res {
+		t.Logf("%s: elpd_loo %.1f (se %.1f), difference %.1f (se %.1f)", r.Name, r.ELPDLoo, r.SELoo, r.DiffLoo, r.SEDiff)
+	}
+	if !strings.Contains(res[0].Name, "lagged") || res[1].DiffLoo > -2*res[1].SEDiff {
+		t.Errorf("compare does not prefer the lagged model by more than 2 se: %+v", res)
+	}
+}
