@@ -565,3 +565,74 @@ func TestHugeContinuousValueRefused(t *testing.T) {
 		t.Errorf("got %v, want a refusal naming d.csv:3 and data.missing_codes", err)
 	}
 }
+
+// TestLatentLagRules: dynamics.lag_on: latent_response is refused, with
+// the key and the reason, where it does not apply, and needs the
+// occasions identifyLatentLag says.
+func TestLatentLagRules(t *testing.T) {
+	base := "data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: binary}]\n"
+	for _, c := range []struct{ text, want string }{
+		{"dynamics: {lags: none, lag_on: latent_response}", "needs dynamics.lags: own or cross"},
+		{"dynamics: {lags: own, lag_on: latent_response, moving_average: true}", "cannot be combined with dynamics.moving_average"},
+		{"dynamics: {lags: own, lag_on: latent_response, first_occasion: stationary}", "first_occasion: stationary does not apply"},
+		{"dynamics: {lags: own, lag_on: latent_response}\nperson_differences: {random_slopes: true}", "cannot be combined with person_differences.random_slopes"},
+		{"dynamics: {lags: own, lag_on: latent_response}\nsampler: {path_moves: true}", "cannot be combined with sampler.path_moves"},
+		{"dynamics: {lags: own, lag_on: latent_response}\nmeans: {anchor: 3}", "means.anchor: 3 does not apply"},
+		{"dynamics: {lags: own, lag_on: observed}", "dynamics.lag_on: expected one of residuals, latent_response"},
+	} {
+		_, err := ParseSpec("m.yaml", []byte(base+c.text+"\n"))
+		if err == nil || !strings.Contains(err.Error(), c.want) || !strings.Contains(err.Error(), "m.yaml") {
+			t.Errorf("%s: error = %v, want %q naming the file", c.text, err, c.want)
+		}
+	}
+	cont := "data: {csv: d.csv, person: p, occasion: t}\noutcomes: [{name: a, type: continuous}]\ndynamics: {lags: own, lag_on: latent_response, over_time: free}\nmeans: {over_time: equal}\n"
+	if _, err := ParseSpec("m.yaml", []byte(cont)); err == nil || !strings.Contains(err.Error(), "use means.over_time: free") {
+		t.Errorf("continuous, paths free, intercepts equal: error = %v", err)
+	}
+	rows := func(T int, skipFirst bool) string {
+		var b strings.Builder
+		b.WriteString("p,t,a\n")
+		for p := 1; p <= 2; p++ {
+			for s := 1; s <= T; s++ {
+				v := fmt.Sprint((p + s) % 2)
+				if skipFirst && s == 1 {
+					v = "NA"
+				}
+				fmt.Fprintf(&b, "%d,%d,%s\n", p, s, v)
+			}
+		}
+		return b.String()
+	}
+	for _, c := range []struct {
+		dyn  string
+		data string
+		want string
+	}{
+		{"{lags: own, lag_on: latent_response}", rows(3, false), "with random intercepts needs at least 4 occasions (the data have 3)"},
+		{"{lags: own, lag_on: latent_response}", rows(4, false), ""},
+		{"{lags: own, lag_on: latent_response, over_time: free}", rows(4, false), "needs at least 5 occasions (the data have 4)"},
+		{"{lags: own, lag_on: latent_response, over_time: free}", rows(5, false), ""},
+		{"{lags: own, lag_on: latent_response}", rows(5, true), "takes the first occasion (1) as given, but nobody answered outcome \"a\" there"},
+	} {
+		sp := mustSpec(t, base+"dynamics: "+c.dyn+"\n")
+		pan, err := ParsePanel(sp, "d.csv", []byte(c.data))
+		if err != nil {
+			t.Fatal(err)
+		}
+		err = Identify(sp, pan)
+		switch {
+		case c.want == "" && err != nil:
+			t.Errorf("%s: unexpected refusal: %v", c.dyn, err)
+		case c.want != "" && (err == nil || !strings.Contains(err.Error(), c.want)):
+			t.Errorf("%s: error = %v, want %q", c.dyn, err, c.want)
+		}
+	}
+	noRI := mustSpec(t, base+"dynamics: {lags: own, lag_on: latent_response}\nperson_differences: {random_intercepts: false}\n")
+	pan, err := ParsePanel(noRI, "d.csv", []byte(rows(2, false)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := Identify(noRI, pan); err != nil {
+		t.Errorf("without random intercepts two occasions suffice: %v", err)
+	}
+}

@@ -40,6 +40,18 @@ sampler:
 // section).
 var growthModel = strings.Replace(strings.Replace(goodModel, "means:\n  over_time: equal\n", "", 1), "dynamics:", "person_differences:\n  random_slopes: true\ndynamics:", 1)
 
+// threeOccasions keeps the rows of the first three waves of data.
+func threeOccasions(data string) string {
+	lines := strings.Split(strings.TrimSpace(data), "\n")
+	out := []string{lines[0]}
+	for _, ln := range lines[1:] {
+		if f := strings.Split(ln, ","); f[1] <= "3" && len(f[1]) == 1 {
+			out = append(out, ln)
+		}
+	}
+	return strings.Join(out, "\n") + "\n"
+}
+
 func goodData() string {
 	var b strings.Builder
 	b.WriteString("id,wave,mood,pain\n")
@@ -167,6 +179,10 @@ func TestBadInput(t *testing.T) {
 			[]string{"model.yaml", "random_slopes: true is not available with dynamics.moving_average: true"}},
 		{"growth time scores not one per occasion", strings.Replace(growthModel, "random_slopes: true", "random_slopes: true\n  time_scores: [0, 1, 2]", 1), data, nil,
 			[]string{"model.yaml", "person_differences.time_scores: 3 scores given for 4 occasions"}},
+		{"lagged latent response with a moving average", strings.Replace(goodModel, "lags: cross", "lags: cross\n  lag_on: latent_response\n  moving_average: true", 1), data, nil,
+			[]string{"model.yaml", "dynamics.lag_on: latent_response cannot be combined with dynamics.moving_average: true"}},
+		{"lagged latent response on three occasions", strings.Replace(goodModel, "lags: cross", "lags: cross\n  lag_on: latent_response", 1), threeOccasions(data), nil,
+			[]string{"model.yaml", "dynamics.lag_on: latent_response with random intercepts needs at least 4 occasions (the data have 3)"}},
 		{"unidentified: cross-lags with one outcome", strings.Replace(goodModel, "  - name: pain\n    type: binary\n", "", 1), data, nil,
 			[]string{"dynamics.lags: cross needs at least two outcomes"}},
 		{"bad flag value", goodModel, data, []string{"--format", "xml"},
