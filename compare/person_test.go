@@ -271,3 +271,87 @@ means: {over_time: equal}
 		}
 	}
 }
+
+// TestPersonLikelihoodLatentLagExact: under a lagged latent response with
+// continuous outcomes the person-level log likelihood is the exact normal
+// density built here from the dynamic equations themselves, independently
+// of the package's intercept-and-loading form: stacking y*_1 = c_1 +
+// Lambda b + zeta_1 and y*_t = c_t + b + A y*_t-1 + zeta_t as
+// (I - L) y* = c + G b + zeta (L the block subdiagonal of A), y* has mean
+// (I - L)^-1 c and covariance (I - L)^-1 (G Psi G' + diag Sigma_t)
+// (I - L)^-T.
+func TestPersonLikelihoodLatentLagExact(t *testing.T) {
+	tr := sampler.Truth{Names: []string{"x", "z"}, Types: []model.OutcomeType{model.Continuous, model.Continuous},
+		Psi: []float64{0.6, 0.2, 0.2, 0.5}, A: []float64{0.4, 0.1, -0.1, 0.3}, Sigma: []float64{1, 0.3, 0.3, 0.8}, Sigma1: []float64{1.2, 0.2, 0.2, 1},
+		Lag: true, LagIntercepts: []float64{1, -1, 0.5, 0.2, 0.4, 0.3, 0.6, 0.1}, Loadings: []float64{1.5, 0.2, -0.3, 1.2}}
+	yaml := `data: {csv: d.csv, person: person, occasion: occasion}
+outcomes: [{name: x, type: continuous}, {name: z, type: continuous}]
+dynamics: {lags: cross, lag_on: latent_response}
+means: {over_time: free}
+`
+	const T = 4
+	l, v, st := drawOf(t, yaml, tr, 60, T)
+	ll, _, err := LogLik(l, [][]float64{v}, 50)
+	if err != nil {
+		t.Fatal(err)
+	}
+	J := l.J
+	JJ, n := J*J, T*J
+	c, lam := st.DynamicForm()
+	IL := mat.NewDense(n, n, nil)
+	G := mat.NewDense(n, J, nil)
+	D := mat.NewDense(n, n, nil)
+	for s := 0; s < T; s++ {
+		for a := 0; a < J; a++ {
+			IL.Set(s*J+a, s*J+a, 1)
+			for b := 0; b < J; b++ {
+				if s > 0 {
+					IL.Set(s*J+a, (s-1)*J+b, -st.A[s*JJ+a*J+b])
+				}
+				D.Set(s*J+a, s*J+b, st.Sig[s*JJ+a*J+b])
+				switch {
+				case s == 0:
+					G.Set(a, b, lam[a*J+b])
+				case a == b:
+					G.Set(s*J+a, b, 1)
+				}
+			}
+		}
+	}
+	var inv, gp, mid, left, cov mat.Dense
+	if err := inv.Inverse(IL); err != nil {
+		t.Fatal(err)
+	}
+	gp.Mul(G, mat.NewDense(J, J, append([]float64(nil), st.Psi...)))
+	mid.Mul(&gp, G.T())
+	mid.Add(&mid, D)
+	left.Mul(&inv, &mid)
+	cov.Mul(&left, inv.T())
+	var mean mat.VecDense
+	mean.MulVec(&inv, mat.NewVecDense(n, c))
+	pan := l.Panel
+	checked := 0
+	for i := 0; i < 10; i++ {
+		if pan.Len[i] != T {
+			continue
+		}
+		mu := make([]float64, n)
+		y := make([]float64, n)
+		sym := mat.NewSymDense(n, nil)
+		for a := 0; a < n; a++ {
+			j := a % J
+			mu[a] = l.Center[j] + l.Scale[j]*mean.AtVec(a)
+			y[a] = pan.Y[pan.Offset[i]+a]
+			for b := 0; b <= a; b++ {
+				sym.SetSym(a, b, l.Scale[j]*l.Scale[b%J]*(cov.At(a, b)+cov.At(b, a))/2)
+			}
+		}
+		checked++
+		if want := newMVN(t, mu, sym).logProb(y); math.Abs(ll[0][i]-want) > 1e-8*math.Abs(want) {
+			t.Errorf("person %d: log likelihood %.10g, exact %.10g", i, ll[0][i], want)
+		}
+	}
+	if checked == 0 {
+		t.Fatal("no complete person to check")
+	}
+}

@@ -318,3 +318,20 @@ func init() {
 		catalog.Kind{Name: "std_latent_crosslag", Section: catalog.Derived, Tabled: true},
 	)
 }
+
+// DynamicForm returns, on the analysis scale, the intercepts c_tj of the
+// lagged latent response's dynamic equation (T x J, fixed ones 0) and
+// the first occasion's loadings Lambda (J x J); nil without the term.
+func (s *State) DynamicForm() (c, lambda []float64) {
+	if !s.L.Dyn {
+		return nil, nil
+	}
+	cf, lam, _ := s.dynParts()
+	c = make([]float64, s.L.T*s.L.J)
+	for t := 0; t < s.L.T; t++ {
+		for j := 0; j < s.L.J; j++ {
+			c[t*s.L.J+j] = s.dynIntercept(cf, t, j)
+		}
+	}
+	return c, slices.Clone(lam)
+}
