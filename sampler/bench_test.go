@@ -210,3 +210,39 @@ func benchSweeps(b *testing.B, l *Layout) {
 		}
 	}
 }
+
+// BenchmarkSweepLatentLag times a sweep of the lagged latent response
+// against the residual carry-over model on the same panel (one binary
+// outcome, and a binary pair with cross-lags), both with random
+// intercepts: the cost of the dynamic-form blocks.
+func BenchmarkSweepLatentLag(b *testing.B) {
+	cases := []struct {
+		name, outcomes, lags string
+		tr                   Truth
+		n, t                 int
+	}{
+		{"binary", "[{name: y, type: binary}]", "own",
+			Truth{Names: []string{"y"}, Types: []model.OutcomeType{model.Binary}, Tau: [][]float64{{0.3}},
+				Psi: []float64{0.5}, A: []float64{0.5}, Sigma: []float64{1}, Sigma1: []float64{1}, Lag: true, Loadings: []float64{1.2}, Missing: 0.05}, 900, 6},
+		{"binary pair", "[{name: a, type: binary}, {name: b, type: binary}]", "cross",
+			Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Binary, model.Binary}, Tau: [][]float64{{0.3}, {-0.2}},
+				Psi: []float64{0.6, 0.2, 0.2, 0.5}, A: []float64{0.4, 0.1, 0.1, 0.3}, Sigma: []float64{1, 0.2, 0.2, 1}, Sigma1: []float64{1, 0.2, 0.2, 1},
+				Lag: true, Loadings: []float64{1.3, 0, 0, 1.3}, Missing: 0.05}, 1200, 5},
+	}
+	for _, c := range cases {
+		csv, err := Simulate(c.tr, c.n, c.t, newRand(3))
+		if err != nil {
+			b.Fatal(err)
+		}
+		for _, lag := range []bool{false, true} {
+			b.Run(fmt.Sprintf("%s/latent=%v", c.name, lag), func(b *testing.B) {
+				dyn := "dynamics: {lags: " + c.lags
+				if lag {
+					dyn += ", lag_on: latent_response"
+				}
+				l := layoutFrom(b, "data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: "+c.outcomes+"\n"+dyn+"}\nmeans: {over_time: free}\n", csv)
+				benchSweeps(b, l)
+			})
+		}
+	}
+}

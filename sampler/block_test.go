@@ -109,7 +109,8 @@ func TestExtractAllocatesNothing(t *testing.T) {
 	const head = "data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: [{name: a, type: ordinal, categories: 3}, {name: b, type: binary}]\n"
 	// Paths and means free; then growth with paths equal (impulse
 	// responses, effects for the average occasion).
-	for _, m := range []string{"dynamics: {lags: cross, over_time: free}\nmeans: {over_time: free}\n", "person_differences: {random_slopes: true}\ndynamics: {lags: cross}\n"} {
+	for _, m := range []string{"dynamics: {lags: cross, over_time: free}\nmeans: {over_time: free}\n", "person_differences: {random_slopes: true}\ndynamics: {lags: cross}\n",
+		"dynamics: {lags: cross, lag_on: latent_response}\nmeans: {over_time: free}\n"} {
 		l := layoutFrom(t, head+m, csv)
 		st := NewState(l, newRand(2))
 		dw := NewDerivedWork(l)

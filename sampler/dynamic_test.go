@@ -121,3 +121,26 @@ func TestLatentLagWithoutInterceptsEqualsResidualAR(t *testing.T) {
 		}
 	}
 }
+
+// TestLatentLagResumeAndCores: a lagged latent response over several
+// shards of persons gives the same draws whatever GOMAXPROCS is, and a
+// run stopped and resumed from its checkpoint (the term's own storage
+// included) equals the uninterrupted one.
+func TestLatentLagResumeAndCores(t *testing.T) {
+	if testing.Short() {
+		t.Skip("large panel skipped in -short mode")
+	}
+	tr := Truth{Names: []string{"a", "b"}, Types: []model.OutcomeType{model.Binary, model.Continuous}, Tau: [][]float64{{0.2}, nil},
+		Psi: []float64{0.5, 0.1, 0.1, 0.6}, A: []float64{0.4, 0.1, 0, 0.3}, Sigma: []float64{1, 0.2, 0.2, 1}, Sigma1: []float64{1, 0.2, 0.2, 1},
+		Lag: true, LagIntercepts: []float64{0, 1, 0.1, 0.5, 0.1, 0.5, 0.1, 0.5}, Loadings: []float64{1.2, 0, 0.1, 1.4}, Missing: 0.05}
+	csv, err := Simulate(tr, 2*personsPerShard+10, 4, newRand(4))
+	if err != nil {
+		t.Fatal(err)
+	}
+	l := layoutFrom(t, `
+data: {csv: x.csv, person: person, occasion: occasion}
+outcomes: [{name: a, type: binary}, {name: b, type: continuous}]
+dynamics: {lags: cross, lag_on: latent_response}
+`, csv)
+	requireCoresAndResume(t, l, "lagged latent response")
+}

@@ -52,6 +52,7 @@ type Layout struct {
 	DynIdx   []int
 	NDyn     int
 	LoadFree []bool
+	dynAt    [][2]int // occasion and outcome of each free intercept
 
 	// MeanIdx[t*J+j] is the index of the free mean parameter of outcome j at
 	// grid occasion t, or -1 where the mean is fixed at 0: a categorical

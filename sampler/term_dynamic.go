@@ -74,6 +74,16 @@ func (l *Layout) dynLayout(observed [][]int) {
 			}
 		}
 	}
+	l.dynAt = make([][2]int, l.NDyn)
+	seen := make([]bool, l.NDyn)
+	for j := 0; j < J; j++ {
+		for t := 0; t < T; t++ {
+			if idx := l.DynIdx[t*J+j]; idx >= 0 && !seen[idx] {
+				seen[idx] = true
+				l.dynAt[idx] = [2]int{t, j}
+			}
+		}
+	}
 	l.LoadFree = make([]bool, J*J)
 	if l.RI {
 		for r := 0; r < J; r++ {
@@ -138,18 +148,11 @@ func dynRecursion(nu, load []float64, c func(t, j int) float64, a, lam []float64
 }
 
 // eachDyn calls fn for every free intercept in index order with the
-// first occasion and outcome it applies to.
+// first occasion and outcome it applies to (Layout.dynAt, fixed with the
+// layout so that extracting a draw allocates nothing).
 func eachDyn(l *Layout, fn func(idx, t, j int)) {
-	seen := make([]bool, l.NDyn)
-	for j := 0; j < l.J; j++ {
-		for t := 0; t < l.T; t++ {
-			idx := l.DynIdx[t*l.J+j]
-			if idx < 0 || seen[idx] {
-				continue
-			}
-			seen[idx] = true
-			fn(idx, t, j)
-		}
+	for idx, tj := range l.dynAt {
+		fn(idx, tj[0], tj[1])
 	}
 }
 
