@@ -144,3 +144,91 @@ func TestUnansweredOccasionNoted(t *testing.T) {
 		t.Errorf("notes %q lack the unanswered occasion", note)
 	}
 }
+
+// TestEveryLatentLagCombination does the same for dynamics.lag_on:
+// latent_response (outcome mixes x random intercepts x own or cross lags x
+// residual correlation x paths and intercepts over time; the first
+// occasion is always free): finite draws of the term's kinds, or a
+// refusal exactly where the rules say so.
+func TestEveryLatentLagCombination(t *testing.T) {
+	mixes := [][]model.OutcomeType{{model.Binary}, {model.Ordinal}, {model.Continuous}, {model.Binary, model.Ordinal, model.Continuous}}
+	fitted, refused := 0, 0
+	for mi, types := range mixes {
+		J := len(types)
+		tr := Truth{Sigma: make([]float64, J*J), Sigma1: make([]float64, J*J), Psi: make([]float64, J*J), A: make([]float64, J*J), Lag: true, Missing: 0.1}
+		outs := ""
+		cont := false
+		for j, ty := range types {
+			tr.Names = append(tr.Names, fmt.Sprintf("y%d", j+1))
+			tr.Types = append(tr.Types, ty)
+			switch ty {
+			case model.Binary:
+				tr.Tau = append(tr.Tau, []float64{0.2})
+			case model.Ordinal:
+				tr.Tau = append(tr.Tau, []float64{-0.8, 0, 0.9})
+			default:
+				tr.Tau = append(tr.Tau, nil)
+				cont = true
+			}
+			tr.Sigma[j*J+j], tr.Sigma1[j*J+j], tr.Psi[j*J+j], tr.A[j*J+j] = 1, 1, 0.5, 0.3
+			outs += fmt.Sprintf("{name: y%d, type: %s}, ", j+1, ty)
+		}
+		csv, err := Simulate(tr, 30, 5, newRand(uint64(mi)))
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, ri := range []bool{true, false} {
+			for _, lags := range []string{"own", "cross"} {
+				for _, rc := range []bool{true, false} {
+					for _, paths := range []string{"equal", "free"} {
+						for _, means := range []string{"equal", "free"} {
+							yaml := fmt.Sprintf("data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: [%s]\nperson_differences: {random_intercepts: %v}\ndynamics: {lags: %s, residual_correlation: %v, over_time: %s, lag_on: latent_response}\nmeans: {over_time: %s}\n", outs, ri, lags, rc, paths, means)
+							name := fmt.Sprintf("%v/ri=%v/lags=%s/rc=%v/paths=%s/means=%s", types, ri, lags, rc, paths, means)
+							wantRefusal := (lags == "cross" && J < 2) || (rc && J < 2) || (cont && paths == "free" && means == "equal")
+							sp, err := model.ParseSpec("opt.yaml", []byte(yaml))
+							if err == nil {
+								var pan *model.Panel
+								if pan, err = model.ParsePanel(sp, "opt.csv", csv); err != nil {
+									t.Fatalf("%s: %v", name, err)
+								}
+								if err = model.Identify(sp, pan); err == nil {
+									if wantRefusal {
+										t.Errorf("%s: accepted, want a refusal", name)
+										continue
+									}
+									l := NewLayout(sp, pan, priors.Default())
+									res, err := Run(context.Background(), l, Options{Chains: 1, Warmup: 15, Draws: 10, Seed: 1, ThresholdUpdate: model.ThresholdJoint})
+									if err != nil {
+										t.Errorf("%s: %v", name, err)
+										continue
+									}
+									for _, v := range append(res.Draws[0], res.DerivedDraws[0]...) {
+										if math.IsNaN(v) || math.IsInf(v, 0) {
+											t.Errorf("%s: non-finite draw", name)
+											break
+										}
+									}
+									kinds := map[string]int{}
+									for _, p := range res.Params {
+										kinds[p.Kind]++
+									}
+									if kinds["latent_autoregression"] == 0 || (lags == "cross") != (kinds["latent_crosslag"] > 0) || kinds["autoregression"] > 0 ||
+										kinds["lag_intercept"] == 0 || ri != (kinds["first_loading"] > 0) || kinds["mean"] > 0 {
+										t.Errorf("%s: kinds %v", name, kinds)
+									}
+									fitted++
+									continue
+								}
+							}
+							if !wantRefusal {
+								t.Errorf("%s: refused unexpectedly: %v", name, err)
+							}
+							refused++
+						}
+					}
+				}
+			}
+		}
+	}
+	t.Logf("%d combinations fitted, %d refused", fitted, refused)
+}
