@@ -2,6 +2,7 @@ package lagstar_test
 
 import (
 	"context"
+	"maps"
 	"os"
 	"path/filepath"
 	"regexp"
@@ -97,16 +98,7 @@ func TestREADMEMovingAverageExample(t *testing.T) {
 			}
 		}
 	}
-	res, err := fit.Compare(fit.CompareOptions{RunDirs: runs, Draws: 100, GHKPoints: 200})
-	if err != nil {
-		t.Fatal(err)
-	}
-	for _, r := range res {
-		t.Logf("%s: elpd_loo %.1f (se %.1f), difference %.1f (se %.1f)", r.Name, r.ELPDLoo, r.SELoo, r.DiffLoo, r.SEDiff)
-	}
-	if !strings.Contains(res[0].Name, "arma") || res[1].DiffLoo > -2*res[1].SEDiff {
-		t.Errorf("compare does not prefer the ARMA(1,1) model by more than 2 se: %+v", res)
-	}
+	requirePrefers(t, runs, "arma", "the ARMA(1,1) model")
 }
 
 // TestREADMEGrowthExample runs the README's invented wrist-pain panel: it
@@ -140,21 +132,36 @@ func TestREADMEGrowthExample(t *testing.T) {
 		if k > 0 {
 			continue
 		}
-		want := map[string]float64{"slope_mean[wrist_pain]": -0.15, "slope_variance[wrist_pain]": 0.12}
-		for _, p := range out.Summary.Parameters {
-			if v, ok := want[p.Name]; ok {
-				lo, hi := float64(p.Lower), float64(p.Upper)
-				t.Logf("%s: mean %.3f, interval [%.3f, %.3f] (truth %g)", p.Name, float64(p.Mean), lo, hi, v)
-				if !(lo <= v && v <= hi) {
-					t.Errorf("%s: interval [%.3f, %.3f] misses the truth %g", p.Name, lo, hi, v)
-				}
-				delete(want, p.Name)
+		requireCovers(t, out, map[string]float64{"slope_mean[wrist_pain]": -0.15, "slope_variance[wrist_pain]": 0.12})
+	}
+	requirePrefers(t, runs, "growth", "the growth model")
+}
+
+// requireCovers requires the 95% intervals of the named parameters of a
+// fit to cover their true values (and every name to be reported).
+func requireCovers(t *testing.T, out *fit.Outcome, want map[string]float64) {
+	t.Helper()
+	want = maps.Clone(want)
+	for _, p := range out.Summary.Parameters {
+		if v, ok := want[p.Name]; ok {
+			lo, hi := float64(p.Lower), float64(p.Upper)
+			t.Logf("%s: mean %.3f, interval [%.3f, %.3f] (truth %g)", p.Name, float64(p.Mean), lo, hi, v)
+			if !(lo <= v && v <= hi) {
+				t.Errorf("%s: interval [%.3f, %.3f] misses the truth %g", p.Name, lo, hi, v)
 			}
-		}
-		if len(want) > 0 {
-			t.Errorf("growth fit reports no %v", want)
+			delete(want, p.Name)
 		}
 	}
+	if len(want) > 0 {
+		t.Errorf("the fit reports no %v", want)
+	}
+}
+
+// requirePrefers compares the runs and requires the first ranked to be
+// the one whose name contains name, ahead by more than two standard
+// errors of the elpd difference.
+func requirePrefers(t *testing.T, runs []string, name, what string) {
+	t.Helper()
 	res, err := fit.Compare(fit.CompareOptions{RunDirs: runs, Draws: 100, GHKPoints: 200})
 	if err != nil {
 		t.Fatal(err)
@@ -162,8 +169,8 @@ func TestREADMEGrowthExample(t *testing.T) {
 	for _, r := range res {
 		t.Logf("%s: elpd_loo %.1f (se %.1f), difference %.1f (se %.1f)", r.Name, r.ELPDLoo, r.SELoo, r.DiffLoo, r.SEDiff)
 	}
-	if !strings.Contains(res[0].Name, "growth") || res[1].DiffLoo > -2*res[1].SEDiff {
-		t.Errorf("compare does not prefer the growth model by more than 2 se: %+v", res)
+	if !strings.Contains(res[0].Name, name) || res[1].DiffLoo > -2*res[1].SEDiff {
+		t.Errorf("compare does not prefer %s by more than 2 se: %+v", what, res)
 	}
 }
 
@@ -231,29 +238,7 @@ func TestREADMELatentLagExample(t *testing.T) {
 		if k > 0 {
 			continue
 		}
-		want := map[string]float64{"latent_autoregression[voice_strain]": 0.6, "first_loading[voice_strain<-ri:voice_strain]": 0.4}
-		for _, p := range out.Summary.Parameters {
-			if v, ok := want[p.Name]; ok {
-				lo, hi := float64(p.Lower), float64(p.Upper)
-				t.Logf("%s: mean %.3f, interval [%.3f, %.3f] (truth %g)", p.Name, float64(p.Mean), lo, hi, v)
-				if !(lo <= v && v <= hi) {
-					t.Errorf("%s: interval [%.3f, %.3f] misses the truth %g", p.Name, lo, hi, v)
-				}
-				delete(want, p.Name)
-			}
-		}
-		if len(want) > 0 {
-			t.Errorf("lagged fit reports no %v", want)
-		}
+		requireCovers(t, out, map[string]float64{"latent_autoregression[voice_strain]": 0.6, "first_loading[voice_strain<-ri:voice_strain]": 0.4})
 	}
-	res, err := fit.Compare(fit.CompareOptions{RunDirs: runs, Draws: 100, GHKPoints: 200})
-	if err != nil {
-		t.Fatal(err)
-	}
-	for _, r := range res {
-		t.Logf("%s: elpd_loo %.1f (se %.1f), difference %.1f (se %.1f)", r.Name, r.ELPDLoo, r.SELoo, r.DiffLoo, r.SEDiff)
-	}
-	if !strings.Contains(res[0].Name, "lagged") || res[1].DiffLoo > -2*res[1].SEDiff {
-		t.Errorf("compare does not prefer the lagged model by more than 2 se: %+v", res)
-	}
+	requirePrefers(t, runs, "lagged", "the lagged model")
 }

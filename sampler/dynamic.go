@@ -182,11 +182,7 @@ type LoadingBlock struct {
 func NewLoadingBlock(l *Layout) *LoadingBlock {
 	J := l.J
 	lb := &LoadingBlock{s11: make([]float64, J*J), s01: make([]float64, J*J), m: make([]float64, J*J), r: make([]float64, J)}
-	for k, f := range l.LoadFree {
-		if f {
-			lb.free = append(lb.free, k)
-		}
-	}
+	lb.free = freeIndices(l.LoadFree)
 	n := len(lb.free)
 	lb.prec, lb.h = make([]float64, n*n), make([]float64, n)
 	return lb
@@ -250,11 +246,7 @@ func NewLagPathBlock(l *Layout) *LagPathBlock {
 	J := l.J
 	JJ := J * J
 	pb := &LagPathBlock{s11: make([]float64, l.T*JJ), s01: make([]float64, l.T*JJ), m: make([]float64, JJ), r: make([]float64, J), cur: make([]float64, JJ)}
-	for k, f := range l.PathFree {
-		if f {
-			pb.free = append(pb.free, k)
-		}
-	}
+	pb.free = freeIndices(l.PathFree)
 	n := len(pb.free)
 	pb.prec, pb.h = make([]float64, n*n), make([]float64, n)
 	return pb
@@ -503,11 +495,7 @@ func NewLagShearBlock(l *Layout) *LagShearBlock {
 	J := l.J
 	sb := &LagShearBlock{psiIn: make([]float64, J*J), tmp: make([]float64, J*J+J), zeta: make([]float64, J), d: make([]float64, J),
 		sd: make([]float64, J), mu: make([]float64, l.N), cur: make([]float64, J*J)}
-	for k, f := range l.PathFree {
-		if f {
-			sb.free = append(sb.free, k)
-		}
-	}
+	sb.free = freeIndices(l.PathFree)
 	return sb
 }
 
@@ -618,4 +606,15 @@ func (sb *LagShearBlock) move(st *State, rng *rand.Rand, s, r, k int) error {
 		st.B[i*J+r] -= eps * sb.mu[i]
 	}
 	return st.Refresh()
+}
+
+// freeIndices returns the indices k where mask[k] is true.
+func freeIndices(mask []bool) []int {
+	var out []int
+	for k, f := range mask {
+		if f {
+			out = append(out, k)
+		}
+	}
+	return out
 }
