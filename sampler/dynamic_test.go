@@ -1,8 +1,10 @@
 package sampler
 
 import (
+	"context"
 	"fmt"
 	"math"
+	"strings"
 	"testing"
 
 	"github.com/lagstar/lagstar/model"
@@ -143,4 +145,76 @@ outcomes: [{name: a, type: binary}, {name: b, type: continuous}]
 dynamics: {lags: cross, lag_on: latent_response}
 `, csv)
 	requireCoresAndResume(t, l, "lagged latent response")
+}
+
+// TestLatentLagTransitionsCoverEmpirical: fitted to a large simulated
+// binary panel with a lagged latent response that starts far from its
+// settled state (first loading 0.5 against 1/(1 - 0.5) = 2), the 95%
+// intervals of the average-person transition probabilities at each
+// occasion cover the panel's own transition shares: the derived
+// quantities follow the between part S_t b and the means m_t as they
+// change over the occasions.
+func TestLatentLagTransitionsCoverEmpirical(t *testing.T) {
+	if testing.Short() {
+		t.Skip("large fit skipped in -short mode")
+	}
+	tr := Truth{Names: []string{"y"}, Types: []model.OutcomeType{model.Binary}, Tau: [][]float64{{0.4}}, Psi: []float64{0.6}, A: []float64{0.5},
+		Sigma: []float64{1}, Sigma1: []float64{1}, Lag: true, LagIntercepts: []float64{0, 0.1, 0.1, 0.1}, Loadings: []float64{0.5}}
+	csv, err := Simulate(tr, 20000, 4, newRand(8))
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Empirical shares per wave: after a 1 (stay) and after a 0 (onset).
+	stay, after1, onset, after0 := map[string]float64{}, map[string]float64{}, map[string]float64{}, map[string]float64{}
+	prev := map[string]string{}
+	for _, line := range strings.Split(strings.TrimSpace(string(csv)), "\n")[1:] {
+		f := strings.Split(line, ",")
+		if p, ok := prev[f[0]]; ok {
+			if p == "1" {
+				after1[f[1]]++
+				if f[2] == "1" {
+					stay[f[1]]++
+				}
+			} else {
+				after0[f[1]]++
+				if f[2] == "1" {
+					onset[f[1]]++
+				}
+			}
+		}
+		prev[f[0]] = f[2]
+	}
+	l := layoutFrom(t, "data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: [{name: y, type: binary}]\ndynamics: {lags: own, lag_on: latent_response}\nmeans: {over_time: equal}\n", csv)
+	res, err := Run(context.Background(), l, Options{Chains: 1, Warmup: 300, Draws: 400, Seed: 3, ThresholdUpdate: model.ThresholdJoint})
+	if err != nil {
+		t.Fatal(err)
+	}
+	nd := len(res.Derived)
+	checked := 0
+	for k, p := range res.Derived {
+		var want float64
+		switch {
+		case strings.HasPrefix(p.Name, "p_stay_average[y,1,t="):
+			w := strings.TrimSuffix(strings.TrimPrefix(p.Name, "p_stay_average[y,1,t="), "]")
+			want = stay[w] / after1[w]
+		case strings.HasPrefix(p.Name, "p_onset_average[y,t="):
+			w := strings.TrimSuffix(strings.TrimPrefix(p.Name, "p_onset_average[y,t="), "]")
+			want = onset[w] / after0[w]
+		default:
+			continue
+		}
+		var xs []float64
+		for d := 0; d < res.Kept[0]; d++ {
+			xs = append(xs, res.DerivedDraws[0][d*nd+k])
+		}
+		lo, hi := quantileOf(xs, 0.025), quantileOf(xs, 0.975)
+		t.Logf("%s: [%.4f, %.4f], panel share %.4f", p.Name, lo, hi, want)
+		if want < lo || want > hi {
+			t.Errorf("%s: 95%% interval [%.4f, %.4f] misses the panel's share %.4f", p.Name, lo, hi, want)
+		}
+		checked++
+	}
+	if checked != 6 {
+		t.Errorf("checked %d transition probabilities, want 6", checked)
+	}
 }

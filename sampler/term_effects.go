@@ -231,9 +231,11 @@ func (effectTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) []flo
 
 // meanOccasions returns the last occasion the means are averaged over
 // with paths equal over time: T-1 when the means differ between occasions
-// (means free over time, growth), else 1 (every occasion gives the same).
+// (means free over time, growth, a lagged latent response, whose m_t and
+// between parts change over the occasions), else 1 (every occasion gives
+// the same).
 func (l *Layout) meanOccasions() int {
-	if l.MeansFree || l.Growth {
+	if l.MeansFree || l.Growth || l.Dyn {
 		return l.T - 1
 	}
 	return 1

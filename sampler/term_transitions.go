@@ -105,7 +105,9 @@ func (transitionTerm) ExtractDerived(s *State, dw *DerivedWork, dst []float64) [
 			}
 			for _, scope := range transitionScopes {
 				v1, v2, c := vPrev, vCur, cov
-				if scope == "average" && l.Growth {
+				if scope == "average" && (l.Growth || l.Dyn) {
+					// The between part changes over occasions (growth
+					// line, or the lagged latent response's S_t).
 					v1 += s.BetweenCov(t-1, j, t-1, j)
 					v2 += s.BetweenCov(t, j, t, j)
 					c += s.BetweenCov(t-1, j, t, j)
