@@ -218,3 +218,27 @@ func TestLatentLagTransitionsCoverEmpirical(t *testing.T) {
 		t.Errorf("checked %d transition probabilities, want 6", checked)
 	}
 }
+
+// TestLatentLagUnansweredOccasionNoted: an occasion nobody answered gets
+// no free intercept of the lagged equation, and the summary's notes say
+// so.
+func TestLatentLagUnansweredOccasionNoted(t *testing.T) {
+	var b strings.Builder
+	b.WriteString("person,occasion,y\n")
+	for p := 1; p <= 20; p++ {
+		for s := 1; s <= 5; s++ {
+			v := fmt.Sprint((p * s) % 2)
+			if s == 3 {
+				v = "NA"
+			}
+			fmt.Fprintf(&b, "%d,%d,%s\n", p, s, v)
+		}
+	}
+	l := layoutFrom(t, "data: {csv: x.csv, person: person, occasion: occasion}\noutcomes: [{name: y, type: binary}]\ndynamics: {lags: own, lag_on: latent_response}\nmeans: {over_time: free}\n", []byte(b.String()))
+	if l.DynIdx[2] != -1 || l.NDyn != 3 {
+		t.Errorf("DynIdx %v (%d free), want occasion 3 fixed and 3 free intercepts", l.DynIdx, l.NDyn)
+	}
+	if len(l.Notes) != 1 || !strings.Contains(l.Notes[0], "answered by nobody at occasion 3") {
+		t.Errorf("notes %q", l.Notes)
+	}
+}

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math/rand/v2"
 	"slices"
+	"strings"
 
 	"github.com/lagstar/lagstar/catalog"
 	"github.com/lagstar/lagstar/model"
@@ -57,9 +58,13 @@ func (l *Layout) dynLayout(observed [][]int) {
 	l.DynIdx = make([]int, T*J)
 	for j := 0; j < J; j++ {
 		rest := -1
+		var unanswered []string
 		for t := 0; t < T; t++ {
 			k := t*J + j
 			l.DynIdx[k] = -1
+			if t > 0 && l.MeansFree && observed[j][t] == 0 {
+				unanswered = append(unanswered, fmt.Sprint(l.Panel.Occasions[t]))
+			}
 			switch {
 			case t == 0 && l.Cat[j]:
 			case t == 0 || (l.MeansFree && observed[j][t] > 0):
@@ -72,6 +77,9 @@ func (l *Layout) dynLayout(observed [][]int) {
 				}
 				l.DynIdx[k] = rest
 			}
+		}
+		if len(unanswered) > 0 {
+			l.Notes = append(l.Notes, fmt.Sprintf("outcome %q was answered by nobody at occasion %s: no intercept of the lagged equation is estimated there (it would rest on the prior alone); it stays at 0", l.Panel.Outcomes[j].Name, strings.Join(unanswered, ", ")))
 		}
 	}
 	l.dynAt = make([][2]int, l.NDyn)
