@@ -117,14 +117,9 @@ func (lb *LagInterceptBlock) Update(st *State, rng *rand.Rand) error {
 			}
 		}
 	}
-	if !dense.Cholesky(lb.prec, n) {
+	if !drawCanonical(rng, lb.prec, lb.h, n) {
 		return errBlock("intercepts of the lagged equation", "conditional precision is not positive definite")
 	}
-	dense.SolveLower(lb.prec, n, lb.h)
-	for k := range lb.h {
-		lb.h[k] += rng.NormFloat64()
-	}
-	dense.SolveUpperT(lb.prec, n, lb.h)
 	c, _, _ := st.dynParts()
 	copy(c, lb.h)
 	st.SyncNu()
@@ -153,14 +148,9 @@ func matrixRegression(rng *rand.Rand, dst []float64, free []int, s11, s01, si []
 		}
 		prec[p1*n+p1] += iv
 	}
-	if !dense.Cholesky(prec, n) {
+	if !drawCanonical(rng, prec, h, n) {
 		return false
 	}
-	dense.SolveLower(prec, n, h)
-	for k := range h {
-		h[k] += rng.NormFloat64()
-	}
-	dense.SolveUpperT(prec, n, h)
 	for p, f := range free {
 		dst[f] = h[p]
 	}
@@ -617,4 +607,20 @@ func freeIndices(mask []bool) []int {
 		}
 	}
 	return out
+}
+
+// drawCanonical overwrites h with a draw from N(Q^{-1} h, Q^{-1}), Q the
+// n x n precision in prec (overwritten by its Cholesky factor L): solve
+// L u = h, add standard normals, solve L' x = u + z. It returns false
+// when Q is not positive definite.
+func drawCanonical(rng *rand.Rand, prec, h []float64, n int) bool {
+	if !dense.Cholesky(prec, n) {
+		return false
+	}
+	dense.SolveLower(prec, n, h)
+	for k := range h[:n] {
+		h[k] += rng.NormFloat64()
+	}
+	dense.SolveUpperT(prec, n, h)
+	return true
 }

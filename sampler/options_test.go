@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 	"testing"
 
@@ -29,27 +30,10 @@ func TestEveryOptionCombination(t *testing.T) {
 	fitted, refused := 0, 0
 	for mi, mix := range mixes {
 		J := len(mix.types)
-		tr := Truth{Sigma: make([]float64, J*J), Psi: make([]float64, J*J), A: make([]float64, J*J), Missing: 0.1}
-		for j, ty := range mix.types {
-			tr.Names = append(tr.Names, fmt.Sprintf("y%d", j+1))
-			tr.Types = append(tr.Types, ty)
-			switch ty {
-			case model.Binary:
-				tr.Tau = append(tr.Tau, []float64{0.2})
-			case model.Ordinal:
-				tr.Tau = append(tr.Tau, []float64{-0.8, 0, 0.9})
-			default:
-				tr.Tau = append(tr.Tau, nil)
-			}
-			tr.Sigma[j*J+j], tr.Psi[j*J+j], tr.A[j*J+j] = 1, 0.5, 0.3
-		}
+		tr, outs := mixTruth(mix.types)
 		csv, err := Simulate(tr, 30, 5, newRand(uint64(mi)))
 		if err != nil {
 			t.Fatal(err)
-		}
-		outs := ""
-		for j, ty := range mix.types {
-			outs += fmt.Sprintf("{name: y%d, type: %s}, ", j+1, ty)
 		}
 		for _, ri := range []bool{true, false} {
 			for _, lags := range []string{"none", "own", "cross"} {
@@ -84,21 +68,9 @@ means: {over_time: %s}
 									t.Errorf("%s: accepted, want a refusal", name)
 									continue
 								}
-								l := NewLayout(sp, pan, priors.Default())
-								res, err := Run(context.Background(), l, Options{Chains: 1, Warmup: 15, Draws: 10, Seed: 1})
-								if err != nil {
-									t.Errorf("%s: %v", name, err)
+								kinds, ok := fitBriefly(t, name, NewLayout(sp, pan, priors.Default()), Options{Chains: 1, Warmup: 15, Draws: 10, Seed: 1})
+								if !ok {
 									continue
-								}
-								for _, v := range append(res.Draws[0], res.DerivedDraws[0]...) {
-									if math.IsNaN(v) || math.IsInf(v, 0) {
-										t.Errorf("%s: non-finite draw", name)
-										break
-									}
-								}
-								kinds := map[string]int{}
-								for _, p := range res.Params {
-									kinds[p.Kind]++
 								}
 								if ri != (kinds["ri_variance"] == J) {
 									t.Errorf("%s: %d ri_variance parameters", name, kinds["ri_variance"])
@@ -155,24 +127,12 @@ func TestEveryLatentLagCombination(t *testing.T) {
 	fitted, refused := 0, 0
 	for mi, types := range mixes {
 		J := len(types)
-		tr := Truth{Sigma: make([]float64, J*J), Sigma1: make([]float64, J*J), Psi: make([]float64, J*J), A: make([]float64, J*J), Lag: true, Missing: 0.1}
-		outs := ""
-		cont := false
-		for j, ty := range types {
-			tr.Names = append(tr.Names, fmt.Sprintf("y%d", j+1))
-			tr.Types = append(tr.Types, ty)
-			switch ty {
-			case model.Binary:
-				tr.Tau = append(tr.Tau, []float64{0.2})
-			case model.Ordinal:
-				tr.Tau = append(tr.Tau, []float64{-0.8, 0, 0.9})
-			default:
-				tr.Tau = append(tr.Tau, nil)
-				cont = true
-			}
-			tr.Sigma[j*J+j], tr.Sigma1[j*J+j], tr.Psi[j*J+j], tr.A[j*J+j] = 1, 1, 0.5, 0.3
-			outs += fmt.Sprintf("{name: y%d, type: %s}, ", j+1, ty)
+		tr, outs := mixTruth(types)
+		tr.Lag, tr.Sigma1 = true, make([]float64, J*J)
+		for j := 0; j < J; j++ {
+			tr.Sigma1[j*J+j] = 1
 		}
+		cont := slices.Contains(types, model.Continuous)
 		csv, err := Simulate(tr, 30, 5, newRand(uint64(mi)))
 		if err != nil {
 			t.Fatal(err)
@@ -196,21 +156,9 @@ func TestEveryLatentLagCombination(t *testing.T) {
 										t.Errorf("%s: accepted, want a refusal", name)
 										continue
 									}
-									l := NewLayout(sp, pan, priors.Default())
-									res, err := Run(context.Background(), l, Options{Chains: 1, Warmup: 15, Draws: 10, Seed: 1, ThresholdUpdate: model.ThresholdJoint})
-									if err != nil {
-										t.Errorf("%s: %v", name, err)
+									kinds, ok := fitBriefly(t, name, NewLayout(sp, pan, priors.Default()), Options{Chains: 1, Warmup: 15, Draws: 10, Seed: 1, ThresholdUpdate: model.ThresholdJoint})
+									if !ok {
 										continue
-									}
-									for _, v := range append(res.Draws[0], res.DerivedDraws[0]...) {
-										if math.IsNaN(v) || math.IsInf(v, 0) {
-											t.Errorf("%s: non-finite draw", name)
-											break
-										}
-									}
-									kinds := map[string]int{}
-									for _, p := range res.Params {
-										kinds[p.Kind]++
 									}
 									if kinds["latent_autoregression"] == 0 || (lags == "cross") != (kinds["latent_crosslag"] > 0) || kinds["autoregression"] > 0 ||
 										kinds["lag_intercept"] == 0 || ri != (kinds["first_loading"] > 0) || kinds["mean"] > 0 {
@@ -231,4 +179,51 @@ func TestEveryLatentLagCombination(t *testing.T) {
 		}
 	}
 	t.Logf("%d combinations fitted, %d refused", fitted, refused)
+}
+
+// mixTruth returns a truth for outcomes of the given types (named y1,
+// y2, ...; variances 1, intercept variances 0.5, autoregressions 0.3, 10%
+// missing) and their model-file entries.
+func mixTruth(types []model.OutcomeType) (Truth, string) {
+	J := len(types)
+	tr := Truth{Sigma: make([]float64, J*J), Psi: make([]float64, J*J), A: make([]float64, J*J), Missing: 0.1}
+	outs := ""
+	for j, ty := range types {
+		tr.Names = append(tr.Names, fmt.Sprintf("y%d", j+1))
+		tr.Types = append(tr.Types, ty)
+		switch ty {
+		case model.Binary:
+			tr.Tau = append(tr.Tau, []float64{0.2})
+		case model.Ordinal:
+			tr.Tau = append(tr.Tau, []float64{-0.8, 0, 0.9})
+		default:
+			tr.Tau = append(tr.Tau, nil)
+		}
+		tr.Sigma[j*J+j], tr.Psi[j*J+j], tr.A[j*J+j] = 1, 0.5, 0.3
+		outs += fmt.Sprintf("{name: y%d, type: %s}, ", j+1, ty)
+	}
+	return tr, outs
+}
+
+// fitBriefly runs a short fit of l and reports the kinds of its
+// parameters, or false (with the error reported) when the fit fails or
+// leaves a draw that is not finite.
+func fitBriefly(t *testing.T, name string, l *Layout, opt Options) (map[string]int, bool) {
+	t.Helper()
+	res, err := Run(context.Background(), l, opt)
+	if err != nil {
+		t.Errorf("%s: %v", name, err)
+		return nil, false
+	}
+	for _, v := range append(res.Draws[0], res.DerivedDraws[0]...) {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			t.Errorf("%s: non-finite draw", name)
+			break
+		}
+	}
+	kinds := map[string]int{}
+	for _, p := range res.Params {
+		kinds[p.Kind]++
+	}
+	return kinds, true
 }

@@ -36,7 +36,8 @@ type State struct {
 	G, GMean []float64
 	// Load holds the between loadings S_t (T blocks of J x J) of the
 	// lagged latent response (term_dynamic.go): the between part at
-	// occasion t is S_t b_i. nil without the term.
+	// occasion t is S_t b_i. A cache of the term's values and A
+	// (syncDyn); nil without the term.
 	Load []float64
 
 	// Caches refreshed by Refresh.
@@ -126,7 +127,7 @@ func NewState(l *Layout, rng *rand.Rand) *State {
 		s.GMean, s.G = o[:2*J], o[2*J:]
 	}
 	if l.Dyn {
-		_, _, s.Load = s.dynParts()
+		s.Load = make([]float64, T*J*J)
 	}
 	s.Mom = newMoments(l)
 	s.quadW, s.quadZ, s.quadPart = shardBufs(l, l.MaxLen*J), shardBufs(l, max(J, l.MaxLen*J)), make([]float64, len(l.ShardStart)-1)

@@ -36,15 +36,16 @@ import (
 // A_t and b work in the dynamic form, where each full conditional is a
 // normal regression (dynamic.go).
 //
-// Own storage: the free intercepts (Layout.DynIdx), Lambda (J x J, fixed
-// entries 0; the identity without random intercepts) and S_t (T blocks).
+// Own storage: the free intercepts (Layout.DynIdx) and Lambda (J x J,
+// fixed entries 0; the identity without random intercepts). S_t follows
+// from them and A (State.Load, recomputed by syncDyn, not saved).
 type dynamicTerm struct{}
 
 func (dynamicTerm) Name() string { return "lagged latent response" }
 
 func (dynamicTerm) Active(l *Layout) bool { return l.Dyn }
 
-func (dynamicTerm) OwnSize(l *Layout) int { return l.NDyn + l.J*l.J + l.T*l.J*l.J }
+func (dynamicTerm) OwnSize(l *Layout) int { return l.NDyn + l.J*l.J }
 
 // dynLayout places the intercepts c_tj: with intercepts free over time
 // one per occasion and outcome, with equal ones one for the first
@@ -106,8 +107,8 @@ func (l *Layout) dynLayout(observed [][]int) {
 // loadings S_t.
 func (s *State) dynParts() (c, lam, load []float64) {
 	o := s.Own(dynamicTerm{})
-	n, JJ := s.L.NDyn, s.L.J*s.L.J
-	return o[:n], o[n : n+JJ], o[n+JJ:]
+	n := s.L.NDyn
+	return o[:n], o[n:], s.Load
 }
 
 // dynIntercept returns c_tj on the analysis scale.
